@@ -1,0 +1,370 @@
+package eos
+
+import (
+	"fmt"
+	"math"
+)
+
+// RootChoice says which root of the cubic a phase evaluation uses.
+type RootChoice int
+
+// Root choices.
+const (
+	// RootMinGibbs takes the root of lowest Gibbs energy when there are
+	// three real roots (the stable single phase).
+	RootMinGibbs RootChoice = iota
+	// RootVapour takes the largest root (vapour-like).
+	RootVapour
+	// RootLiquid takes the smallest root above B (liquid-like).
+	RootLiquid
+)
+
+// Branch says which root an evaluation ended on.
+type Branch int
+
+// Branches.
+const (
+	// BranchSingle: the cubic had one real root above B.
+	BranchSingle Branch = iota
+	// BranchVapour: the largest of three real roots.
+	BranchVapour
+	// BranchLiquid: the smallest of three real roots.
+	BranchLiquid
+)
+
+// String names the branch.
+func (b Branch) String() string {
+	switch b {
+	case BranchVapour:
+		return "vapour"
+	case BranchLiquid:
+		return "liquid"
+	}
+	return "single"
+}
+
+// Want selects the derivatives a Fugacity call computes beyond ln φ.
+type Want uint8
+
+// Derivative flags.
+const (
+	WantT   Want = 1 << iota // ∂ln φ_i/∂T at fixed P, n
+	WantP                    // ∂ln φ_i/∂P at fixed T, n
+	WantN                    // ∂ln φ_i/∂n_j at fixed T, P
+	WantAll = WantT | WantP | WantN
+)
+
+// Fugacity holds the result of one phase evaluation. Its slices are sized
+// by NewFugacity and overwritten by every call, so one value serves a
+// whole solver run without allocating.
+type Fugacity struct {
+	LnPhi []float64 // ln φ_i
+	DT    []float64 // ∂ln φ_i/∂T, 1/K (filled with WantT)
+	DP    []float64 // ∂ln φ_i/∂P, 1/Pa (filled with WantP)
+	// DN is ∂ln φ_i/∂n_j at fixed T, P for one mole in total, row-major
+	// n×n (filled with WantN). For N moles divide by N. It is symmetric and
+	// satisfies Gibbs–Duhem: Σ_i x_i·DN[i][j] = 0.
+	DN     []float64
+	Z      float64 // compressibility factor (of the translated volume)
+	V      float64 // molar volume, m³/mol (translated)
+	Branch Branch
+	Roots  int // number of real roots above B (1 or 3)
+}
+
+// NewFugacity returns a Fugacity sized for mx.
+func (mx *Mixture) NewFugacity() *Fugacity {
+	n := mx.n
+	return &Fugacity{
+		LnPhi: make([]float64, n),
+		DT:    make([]float64, n),
+		DP:    make([]float64, n),
+		DN:    make([]float64, n*n),
+	}
+}
+
+// Fugacity evaluates ln φ_i of a phase of composition x (mole fractions or
+// mole numbers; they are normalised) at temperature T (K) and pressure P
+// (Pa), and the derivatives selected by want, all in one pass. It uses the
+// formulation of Michelsen & Mollerup, Thermodynamic Models: Fundamentals &
+// Computational Aspects, 2nd ed. (2007), ch. 2–3: with F = A^r/RT,
+//
+//	ln φ_i = (∂F/∂n_i)_{T,V} − ln Z,
+//	n(∂ln φ_i/∂n_j)_{T,P} = n·F_ij + 1 + (n/RT)(∂P/∂n_i)(∂P/∂n_j)/(∂P/∂V),
+//	(∂ln φ_i/∂T)_{P} = F_iT + 1/T − (v̄_i/RT)(∂P/∂T)_V,
+//	(∂ln φ_i/∂P)_{T} = v̄_i/RT − 1/P.
+//
+// It allocates nothing.
+func (mx *Mixture) Fugacity(ws *Workspace, T, P float64, x []float64, root RootChoice, want Want, out *Fugacity) error {
+	if err := mx.checkTPX(ws, T, P, x); err != nil {
+		return err
+	}
+	if len(out.LnPhi) != mx.n || len(out.DT) != mx.n || len(out.DP) != mx.n || len(out.DN) != mx.n*mx.n {
+		return &InputError{Field: "out", Value: float64(len(out.LnPhi)), Reason: "Fugacity not sized for this mixture (use NewFugacity)"}
+	}
+	ws.setT(T)
+	mx.composition(ws, x, want&WantT != 0)
+	mx.solveZ(ws, T, P, root)
+	mx.residual(ws, false)
+	mx.lnPhi(ws, want, out)
+	return nil
+}
+
+// checkTPX validates a state. It is cheap next to the evaluation.
+func (mx *Mixture) checkTPX(ws *Workspace, T, P float64, x []float64) error {
+	if ws == nil || ws.mx != mx {
+		return &InputError{Field: "workspace", Reason: "workspace belongs to another mixture (use NewWorkspace)"}
+	}
+	if err := positive("T", T); err != nil {
+		return err
+	}
+	if err := positive("P", P); err != nil {
+		return err
+	}
+	return mx.checkX(x)
+}
+
+func (mx *Mixture) checkX(x []float64) error {
+	if len(x) != mx.n {
+		return &InputError{Field: "x", Value: float64(len(x)), Reason: fmt.Sprintf("composition has %d entries, the mixture %d components", len(x), mx.n)}
+	}
+	s := 0.0
+	for i, v := range x {
+		if !finite(v) || v < 0 {
+			return &InputError{Field: xField(i), Value: v, Reason: "mole fraction must be finite and non-negative"}
+		}
+		s += v
+	}
+	if !(s > 0) || math.IsInf(s, 0) {
+		return &InputError{Field: "x", Value: s, Reason: "composition must have a positive, finite sum"}
+	}
+	return nil
+}
+
+func xField(i int) string { return "x[" + itoa(i) + "]" }
+
+func itoa(i int) string {
+	if i >= 0 && i < 10 {
+		return string(rune('0' + i))
+	}
+	return fmt.Sprint(i)
+}
+
+// composition normalises x into ws.x and forms the mixing sums
+//
+//	D = Σ_ij x_i x_j a_ij,  D_i = 2Σ_j x_j a_ij,  B = Σ_i x_i b_i,
+//
+// and, with withT, their temperature derivatives.
+func (mx *Mixture) composition(ws *Workspace, x []float64, withT bool) {
+	n := mx.n
+	st := &ws.st
+	s := 0.0
+	for _, v := range x {
+		s += v
+	}
+	inv := 1 / s
+	bm, cs, mw := 0.0, 0.0, 0.0
+	for i, v := range x {
+		xi := v * inv
+		ws.x[i] = xi
+		bm += xi * mx.b[i]
+		cs += xi * mx.c[i]
+		mw += xi * mx.mw[i]
+	}
+	D, DT, DTT := 0.0, 0.0, 0.0
+	xs := ws.x
+	for i := range n {
+		row := ws.aij[i*n : i*n+n]
+		sum := 0.0
+		for j, a := range row {
+			sum += xs[j] * a
+		}
+		ws.di[i] = 2 * sum
+		D += xs[i] * sum
+	}
+	if withT {
+		for i := range n {
+			rowT := ws.aijT[i*n : i*n+n]
+			rowTT := ws.aijTT[i*n : i*n+n]
+			sT, sTT := 0.0, 0.0
+			for j := range n {
+				sT += xs[j] * rowT[j]
+				sTT += xs[j] * rowTT[j]
+			}
+			ws.diT[i] = 2 * sT
+			DT += xs[i] * sT
+			DTT += xs[i] * sTT
+		}
+	}
+	st.D, st.DT, st.DTT = D, DT, DTT
+	st.Bm, st.cshift, st.mw = bm, cs, mw
+}
+
+// solveZ finds the compressibility factor of the requested root at T, P
+// and sets st.V, st.Z, st.roots, st.branch.
+func (mx *Mixture) solveZ(ws *Workspace, T, P float64, root RootChoice) {
+	st := &ws.st
+	rt := R * T
+	A := st.D * P / (rt * rt)
+	B := st.Bm * P / rt
+	st.A, st.B, st.T, st.P = A, B, T, P
+	d1, d2 := mx.p.d1, mx.p.d2
+	var roots [3]float64
+	nr := cubicRoots(A, B, d1, d2, &roots)
+	z := roots[0]
+	st.roots = nr
+	st.branch = BranchSingle
+	if nr == 3 {
+		zl, zv := roots[0], roots[2]
+		switch root {
+		case RootVapour:
+			z, st.branch = zv, BranchVapour
+		case RootLiquid:
+			z, st.branch = zl, BranchLiquid
+		default:
+			if gres(zl, A, B, d1, d2) < gres(zv, A, B, d1, d2) {
+				z, st.branch = zl, BranchLiquid
+			} else {
+				z, st.branch = zv, BranchVapour
+			}
+		}
+	}
+	st.Z = z
+	st.V = z * rt / P
+}
+
+// gres is G^r/RT of a root, used to pick the stable one:
+//
+//	Z − 1 − ln(Z − B) − A/(B(δ1 − δ2))·ln((Z + δ1B)/(Z + δ2B)).
+func gres(z, A, B, d1, d2 float64) float64 {
+	return z - 1 - math.Log(z-B) - A/(B*(d1-d2))*math.Log((z+d1*B)/(z+d2*B))
+}
+
+// residual evaluates F = A^r/(nRT) and the volume and temperature
+// derivatives at st.T, st.V (one mole), following Michelsen & Mollerup (2007):
+//
+//	F = −g(V, B) − (D/T)·f(V, B),
+//	g = ln(1 − B/V),
+//	f = ln((V + δ1B)/(V + δ2B)) / (R·B·(δ1 − δ2)).
+//
+// The pressure derivatives ∂P/∂V and ∂P/∂T are stored; with tv the
+// pressure is also recomputed from V (for T–V evaluations).
+func (mx *Mixture) residual(ws *Workspace, tv bool) {
+	st := &ws.st
+	T, V, Bm, D := st.T, st.V, st.Bm, st.D
+	d1, d2 := mx.p.d1, mx.p.d2
+	v1, v2 := V+d1*Bm, V+d2*Bm
+	vb := V - Bm
+	g := math.Log(1 - Bm/V)
+	f := math.Log(v1/v2) / (R * Bm * (d1 - d2))
+	fV := -1 / (R * v1 * v2)
+	fB := -(f + V*fV) / Bm
+	fVV := (1/(v2*v2) - 1/(v1*v1)) / (R * Bm * (d1 - d2))
+	gV := Bm / (V * vb)
+	gVV := -1/(vb*vb) + 1/(V*V)
+	st.g, st.f, st.fV, st.fB = g, f, fV, fB
+	st.F = -g - D/T*f
+	st.FT = f / (T * T) * (D - T*st.DT)
+	st.FTT = -2*D*f/(T*T*T) + 2*f*st.DT/(T*T) - f*st.DTT/T
+	FV := -gV - D/T*fV
+	FVV := -gVV - D/T*fVV
+	FVT := D*fV/(T*T) - fV/T*st.DT
+	rt := R * T
+	if tv {
+		st.P = -rt*FV + rt/V
+		st.Z = st.P * V / rt
+		st.A = D * st.P / (rt * rt)
+		st.B = Bm * st.P / rt
+	}
+	st.dPdV = -rt*FVV - rt/(V*V)
+	st.dPdT = st.P/T - rt*FVT
+}
+
+// lnPhi fills out from the last residual evaluation.
+func (mx *Mixture) lnPhi(ws *Workspace, want Want, out *Fugacity) {
+	st := &ws.st
+	n := mx.n
+	T, P, V, Bm := st.T, st.P, st.V, st.Bm
+	rt := R * T
+	d1, d2 := mx.p.d1, mx.p.d2
+	v1, v2 := V+d1*Bm, V+d2*Bm
+	vb := V - Bm
+	f, fV, fB := st.f, st.fV, st.fB
+	D := st.D
+	gB := -1 / vb
+	FB := -gB - D/T*fB // n = 1
+	FD := -f / T
+	lnZ := math.Log(st.Z)
+	shift := mx.shift
+	pOverRT := P / rt
+	for i := range n {
+		out.LnPhi[i] = -st.g + FB*mx.b[i] + FD*ws.di[i] - lnZ
+		if shift {
+			out.LnPhi[i] -= mx.c[i] * pOverRT
+		}
+	}
+	out.Roots = st.roots
+	out.Branch = st.branch
+	out.V = V - st.cshift
+	out.Z = P * out.V / rt
+	if want == 0 {
+		return
+	}
+	// Second derivatives of F (one mole).
+	gV := Bm / (V * vb)
+	fVV := (1/(v2*v2) - 1/(v1*v1)) / (R * Bm * (d1 - d2))
+	fBV := -(2*fV + V*fVV) / Bm
+	fBB := -(2*fB + V*fBV) / Bm
+	gBV := 1 / (vb * vb)
+	gBB := -1 / (vb * vb)
+	FnV := -gV
+	FnB := -gB
+	FBV := -gBV - D/T*fBV
+	FBB := -gBB - D/T*fBB
+	FDV := -fV / T
+	FBD := -fB / T
+	dPdV := st.dPdV
+	// ∂P/∂n_i = −RT·F_Vi + RT/V with F_Vi = F_nV + F_BV·b_i + F_DV·D_i.
+	for i := range n {
+		FVi := FnV + FBV*mx.b[i] + FDV*ws.di[i]
+		ws.pn[i] = -rt*FVi + rt/V
+	}
+	if want&WantN != 0 {
+		for i := range n {
+			bi, Di := mx.b[i], ws.di[i]
+			row := out.DN[i*n : i*n+n]
+			arow := ws.aij[i*n : i*n+n]
+			pni := ws.pn[i] / (rt * dPdV)
+			for j := i; j < n; j++ {
+				bj, Dj := mx.b[j], ws.di[j]
+				Fij := FnB*(bi+bj) + FBD*(bi*Dj+bj*Di) + FBB*bi*bj + FD*2*arow[j]
+				v := Fij + 1 + pni*ws.pn[j]
+				row[j] = v
+				out.DN[j*n+i] = v
+			}
+		}
+	}
+	if want&(WantT|WantP) != 0 {
+		FBT := D * fB / (T * T)
+		FDT := f / (T * T)
+		DT := st.DT
+		dPdT := st.dPdT
+		for i := range n {
+			vbar := -ws.pn[i] / dPdV
+			if want&WantP != 0 {
+				d := vbar/rt - 1/P
+				if shift {
+					d -= mx.c[i] / rt
+				}
+				out.DP[i] = d
+			}
+			if want&WantT != 0 {
+				FiT := (FBT+FBD*DT)*mx.b[i] + FDT*ws.di[i] + FD*ws.diT[i]
+				d := FiT + 1/T - vbar*dPdT/rt
+				if shift {
+					d += mx.c[i] * P / (rt * T)
+				}
+				out.DT[i] = d
+			}
+		}
+	}
+}
