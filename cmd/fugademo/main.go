@@ -21,7 +21,7 @@ import (
 )
 
 // The demo stream is invented for this example.
-var demoIDs = []string{"nitrogen", "carbon dioxide", "methane", "ethane", "propane", "isobutane", "n-butane", "isopentane", "n-pentane", "n-hexane"}
+var demoIDs = []string{"nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "isobutane", "n-butane", "isopentane", "n-pentane", "n-hexane"}
 var demoX = []float64{0.012, 0.018, 0.870, 0.052, 0.024, 0.007, 0.008, 0.003, 0.003, 0.003}
 
 func main() {

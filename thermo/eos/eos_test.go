@@ -33,7 +33,7 @@ func mixture(t testing.TB, model Model, opts Options, ids ...string) *Mixture {
 
 // leanGas is a ten-component gas of our own ("Kestrel Ridge" sales gas),
 // used throughout the tests.
-var leanGasIDs = []string{"nitrogen", "carbon dioxide", "methane", "ethane", "propane", "isobutane", "n-butane", "isopentane", "n-pentane", "n-hexane"}
+var leanGasIDs = []string{"nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "isobutane", "n-butane", "isopentane", "n-pentane", "n-hexane"}
 var leanGasX = []float64{0.012, 0.018, 0.870, 0.052, 0.024, 0.007, 0.008, 0.003, 0.003, 0.003}
 
 func TestCriticalCompressibility(t *testing.T) {
@@ -67,7 +67,7 @@ func TestCriticalPointReproduced(t *testing.T) {
 	// Model fact: at (Tc, vc = Zc·R·Tc/Pc) the model gives P = Pc and
 	// ∂P/∂v = ∂²P/∂v² = 0.
 	for _, model := range Models() {
-		for _, id := range []string{"methane", "propane", "n-decane", "carbon dioxide", "water"} {
+		for _, id := range []string{"methane", "propane", "n-decane", "carbon-dioxide", "water"} {
 			mx := mixture(t, model, Options{}, id)
 			ws := mx.NewWorkspace()
 			c := mx.Component(0)
@@ -154,8 +154,8 @@ func TestVapourPressureAgainstTables(t *testing.T) {
 		{"n-hexane", 298.15, 20.18e3},
 		{"nitrogen", 77.355, 101325},
 		{"nitrogen", 100.0, 0.77881e6},
-		{"carbon dioxide", 273.15, 3.4851e6},
-		{"carbon dioxide", 293.15, 5.7291e6},
+		{"carbon-dioxide", 273.15, 3.4851e6},
+		{"carbon-dioxide", 293.15, 5.7291e6},
 		{"benzene", 353.22, 101325},
 		{"toluene", 383.75, 101325},
 		{"cyclohexane", 353.86, 101325},
@@ -358,7 +358,7 @@ func TestClapeyron(t *testing.T) {
 	// of the model's vapour pressure and ΔH_vap from departure functions;
 	// within 0.5 %.
 	for _, model := range Models() {
-		for _, id := range []string{"methane", "propane", "n-heptane", "water", "carbon dioxide"} {
+		for _, id := range []string{"methane", "propane", "n-heptane", "water", "carbon-dioxide"} {
 			mx := mixture(t, model, Options{}, id)
 			ws := mx.NewWorkspace()
 			tc := mx.Component(0).Tc
@@ -435,7 +435,7 @@ func TestCompressibilityOfGasesAtAmbient(t *testing.T) {
 	// Common practice (a fact of the trade): at 300 K and 5 MPa hydrogen has
 	// Z > 1, nitrogen Z just below 1, and carbon dioxide deviates most.
 	z := map[string]float64{}
-	for _, id := range []string{"hydrogen", "nitrogen", "carbon dioxide"} {
+	for _, id := range []string{"hydrogen", "nitrogen", "carbon-dioxide"} {
 		mx := mixture(t, PR76, Options{}, id)
 		p, err := mx.Properties(mx.NewWorkspace(), 300, 5e6, []float64{1}, RootMinGibbs)
 		if err != nil {
@@ -450,7 +450,7 @@ func TestCompressibilityOfGasesAtAmbient(t *testing.T) {
 		t.Errorf("Z(N2) = %g, want just below 1", z["nitrogen"])
 	}
 	dev := func(id string) float64 { return math.Abs(z[id] - 1) }
-	if !(dev("carbon dioxide") > dev("hydrogen") && dev("carbon dioxide") > dev("nitrogen")) {
+	if !(dev("carbon-dioxide") > dev("hydrogen") && dev("carbon-dioxide") > dev("nitrogen")) {
 		t.Errorf("Z = %v: CO2 should deviate most", z)
 	}
 }
