@@ -1,0 +1,125 @@
+package server
+
+import (
+	"fmt"
+	"time"
+)
+
+// Limits bound what one request may ask for. Each field's comment gives its
+// default (used when the field is zero) and the status code a request over
+// the limit receives.
+type Limits struct {
+	// MaxComponents bounds the components of one fluid. Default 100.
+	// Over it: INVALID_ARGUMENT, reason LIMIT_EXCEEDED, with a field
+	// violation on fluid.components.
+	MaxComponents int
+	// MaxBatchStates bounds the states of one FlashBatch call. Default
+	// 10000. Over it: INVALID_ARGUMENT, reason LIMIT_EXCEEDED, field states.
+	MaxBatchStates int
+	// MaxEnvelopePoints bounds PhaseEnvelopeRequest.max_points and is the
+	// value used when it is zero. Default 2000. Over it: INVALID_ARGUMENT,
+	// reason LIMIT_EXCEEDED, field max_points.
+	MaxEnvelopePoints int
+	// MaxInteractionParameters bounds Fluid.interaction_parameters.
+	// Default MaxComponents·(MaxComponents−1)/2, one per pair. Over it:
+	// INVALID_ARGUMENT, reason LIMIT_EXCEEDED.
+	MaxInteractionParameters int
+	// MaxMessageBytes bounds received and sent messages. Default 16 MiB.
+	// Over it gRPC itself answers RESOURCE_EXHAUSTED.
+	MaxMessageBytes int
+	// MaxDeadline caps the deadline of a unary call and of each message of a
+	// stream; a call without a deadline gets this one. Default 30 s. Work
+	// still running at the deadline stops with DEADLINE_EXCEEDED.
+	MaxDeadline time.Duration
+	// StreamIdleTimeout ends a FlashStream that receives no message for
+	// this long, with DEADLINE_EXCEEDED, reason STREAM_IDLE. Default 5 min.
+	StreamIdleTimeout time.Duration
+}
+
+// Config configures a Server. The zero value is valid: every zero field
+// takes the default stated beside it.
+type Config struct {
+	Limits
+	// MaxConcurrentSolves bounds the solves running at once across all
+	// calls (one FlashBatch state, stream message or unary call each
+	// holds one slot while it solves). A call that finds the pool full is
+	// shed at once with UNAVAILABLE, reason OVERLOADED, so that a client's
+	// retry policy moves it to another replica. Default 4; the fugad binary
+	// passes GOMAXPROCS.
+	MaxConcurrentSolves int
+	// Cache sizes the result and compiled-fluid caches.
+	Cache CacheConfig
+	// DataVersion and ModelVersion are reported in every SolverReport and
+	// by the discovery calls. Defaults: the component data bank's version
+	// and ModelVersion.
+	DataVersion, ModelVersion string
+}
+
+// Default limits (see Limits for what each bounds).
+const (
+	DefaultMaxComponents       = 100
+	DefaultMaxBatchStates      = 10000
+	DefaultMaxEnvelopePoints   = 2000
+	DefaultMaxMessageBytes     = 16 << 20
+	DefaultMaxDeadline         = 30 * time.Second
+	DefaultStreamIdleTimeout   = 5 * time.Minute
+	DefaultMaxConcurrentSolves = 4
+)
+
+// ModelVersion identifies the models and solvers compiled into this
+// server; it changes whenever a change can alter a result's bytes.
+const ModelVersion = "fugad-models-1"
+
+// withDefaults returns c with every zero field replaced by its default, or
+// an error naming a negative field.
+func (c Config) withDefaults() (Config, error) {
+	ints := []struct {
+		name string
+		v    *int
+		def  int
+	}{
+		{"MaxComponents", &c.MaxComponents, DefaultMaxComponents},
+		{"MaxBatchStates", &c.MaxBatchStates, DefaultMaxBatchStates},
+		{"MaxEnvelopePoints", &c.MaxEnvelopePoints, DefaultMaxEnvelopePoints},
+		{"MaxMessageBytes", &c.MaxMessageBytes, DefaultMaxMessageBytes},
+		{"MaxConcurrentSolves", &c.MaxConcurrentSolves, DefaultMaxConcurrentSolves},
+		{"MaxInteractionParameters", &c.MaxInteractionParameters, 0},
+	}
+	for _, f := range ints {
+		if *f.v < 0 {
+			return c, fmt.Errorf("server: config %s = %d: must not be negative", f.name, *f.v)
+		}
+		if *f.v == 0 {
+			*f.v = f.def
+		}
+	}
+	if c.MaxInteractionParameters == 0 {
+		c.MaxInteractionParameters = c.MaxComponents * (c.MaxComponents - 1) / 2
+		if c.MaxInteractionParameters < 1 {
+			c.MaxInteractionParameters = 1
+		}
+	}
+	durs := []struct {
+		name string
+		v    *time.Duration
+		def  time.Duration
+	}{
+		{"MaxDeadline", &c.MaxDeadline, DefaultMaxDeadline},
+		{"StreamIdleTimeout", &c.StreamIdleTimeout, DefaultStreamIdleTimeout},
+	}
+	for _, f := range durs {
+		if *f.v < 0 {
+			return c, fmt.Errorf("server: config %s = %v: must not be negative", f.name, *f.v)
+		}
+		if *f.v == 0 {
+			*f.v = f.def
+		}
+	}
+	if c.ModelVersion == "" {
+		c.ModelVersion = ModelVersion
+	}
+	if c.DataVersion == "" {
+		c.DataVersion = componentDataVersion()
+	}
+	return c, nil
+}

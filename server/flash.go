@@ -1,0 +1,435 @@
+package server
+
+import (
+	"context"
+	"errors"
+	"io"
+	"sync"
+	"time"
+
+	spb "google.golang.org/genproto/googleapis/rpc/status"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
+
+	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
+	"github.com/fugad/fugad/thermo/component"
+	"github.com/fugad/fugad/thermo/eos"
+)
+
+// flashJob is one validated flash: everything a solver needs.
+type flashJob struct {
+	fluid  *compiledFluid
+	state  flashState
+	opts   *fugadv1.SolverOptions
+	bypass bool
+}
+
+// solveFlash is the translation of one flash onto the thermo solvers. The
+// flash solvers (stability analysis, phase split, state-function
+// specifications) are not part of this build, so every valid flash is
+// answered UNIMPLEMENTED; wiring them means filling in this function and
+// nothing else. It runs inside a solver slot.
+func (s *Server) solveFlash(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
+	return nil, errNotImplemented("Flash")
+}
+
+// solveSaturation is the translation of SaturationPoint onto the thermo
+// solvers; see solveFlash.
+func (s *Server) solveSaturation(ctx context.Context, cf *compiledFluid, req *fugadv1.SaturationPointRequest, x []float64) (*fugadv1.SaturationPointResponse, error) {
+	return nil, errNotImplemented("SaturationPoint")
+}
+
+// solveEnvelope is the translation of PhaseEnvelope onto the thermo
+// solvers; see solveFlash. maxPoints is the effective point cap.
+func (s *Server) solveEnvelope(ctx context.Context, cf *compiledFluid, req *fugadv1.PhaseEnvelopeRequest, x []float64, maxPoints int) (*fugadv1.PhaseEnvelopeResponse, error) {
+	return nil, errNotImplemented("PhaseEnvelope")
+}
+
+// Flash computes the equilibrium state of one feed.
+func (s *Server) Flash(ctx context.Context, req *fugadv1.FlashRequest) (*fugadv1.FlashResponse, error) {
+	info(ctx).states.Add(1)
+	var v violations
+	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	var st flashState
+	if n := s.fluidComponentCount(req.GetFluid()); n > 0 {
+		st = checkFlashState(&v, "state", req.GetState(), n, nil)
+	}
+	solverOptions(&v, "options", req.GetOptions())
+	if err := v.err(); err != nil {
+		return nil, err
+	}
+	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	if err != nil {
+		return nil, err
+	}
+	job := &flashJob{fluid: cf, state: st, opts: req.GetOptions(), bypass: req.GetBypassCache()}
+	var res *fugadv1.FlashResult
+	err = s.inSlot(ctx, "Flash", req, func() error {
+		var err error
+		res, err = s.flashTimed(ctx, job)
+		return err
+	})
+	if err != nil {
+		return nil, err
+	}
+	return &fugadv1.FlashResponse{Result: res}, nil
+}
+
+// flashTimed runs solveFlash and records its metrics.
+func (s *Server) flashTimed(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
+	start := time.Now()
+	res, err := s.solveFlash(ctx, job)
+	if err != nil {
+		return nil, err
+	}
+	s.metrics.observeSolve(string(job.state.spec), time.Since(start), res.GetReport(), len(res.GetPhases()))
+	return res, nil
+}
+
+// statusProto converts a status error to its google.rpc.Status message.
+func statusProto(err error) *spb.Status {
+	if err == nil {
+		return &spb.Status{Code: int32(codes.OK)}
+	}
+	st, ok := status.FromError(err)
+	if !ok {
+		st = status.New(codes.Internal, "internal error")
+	}
+	return st.Proto()
+}
+
+// FlashBatch flashes many states of one fluid. Whole-request problems
+// (fluid, sizes, options, the default composition) fail the call; a bad or
+// failed state fails only its own item. The call holds one solver slot
+// (shed when none is free) and takes up to GOMAXPROCS−1 more if they are
+// free at the start, to solve states in parallel; results are placed by
+// index, so the response does not depend on the schedule.
+func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest) (*fugadv1.FlashBatchResponse, error) {
+	ci := info(ctx)
+	var v violations
+	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	states := req.GetStates()
+	ci.states.Add(int64(len(states)))
+	switch {
+	case len(states) == 0:
+		v.add("states", "required: at least one state")
+	case len(states) > s.cfg.MaxBatchStates:
+		v.limit("states", "has %d states, the limit is %d", len(states), s.cfg.MaxBatchStates)
+	}
+	solverOptions(&v, "options", req.GetOptions())
+	n := s.fluidComponentCount(req.GetFluid())
+	var def []float64
+	if n > 0 && len(req.GetMoleFractions()) > 0 {
+		def = composition(&v, "mole_fractions", req.GetMoleFractions(), n)
+	}
+	if err := v.err(); err != nil {
+		return nil, err
+	}
+	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	if err != nil {
+		return nil, err
+	}
+
+	items := make([]*fugadv1.FlashBatchItem, len(states))
+	jobs := make([]*flashJob, len(states))
+	for i, st := range states {
+		var sv violations
+		f := index("states", i)
+		if len(st.GetMoleFractions()) == 0 && def == nil {
+			sv.add(fieldPath(f, "mole_fractions"), "required: the state has no composition and the request no default mole_fractions")
+		}
+		fs := checkFlashState(&sv, f, st, n, def)
+		if err := sv.err(); err != nil {
+			items[i] = &fugadv1.FlashBatchItem{Status: statusProto(err)}
+			continue
+		}
+		jobs[i] = &flashJob{fluid: cf, state: fs, opts: req.GetOptions(), bypass: req.GetBypassCache()}
+	}
+
+	release, err := s.slot("FlashBatch")
+	if err != nil {
+		return nil, err
+	}
+	defer release()
+	extra := s.extraSlots(batchWorkers(len(states)) - 1)
+	defer s.releaseSlots(extra)
+
+	var (
+		wg   sync.WaitGroup
+		next = make(chan int)
+	)
+	for range 1 + extra {
+		wg.Go(func() {
+			for i := range next {
+				items[i] = s.batchItem(ctx, jobs[i])
+			}
+		})
+	}
+	for i := range states {
+		if jobs[i] != nil {
+			next <- i
+		}
+	}
+	close(next)
+	wg.Wait()
+	if err := ctx.Err(); err != nil {
+		return nil, ctxErr(err)
+	}
+	return &fugadv1.FlashBatchResponse{Items: items}, nil
+}
+
+// batchItem solves one state of a batch inside the batch's slots.
+func (s *Server) batchItem(ctx context.Context, job *flashJob) (item *fugadv1.FlashBatchItem) {
+	defer func() {
+		if p := recover(); p != nil {
+			item = &fugadv1.FlashBatchItem{Status: statusProto(s.panicked(fugadv1.FugadService_FlashBatch_FullMethodName, nil, p))}
+		}
+	}()
+	if err := ctx.Err(); err != nil {
+		return &fugadv1.FlashBatchItem{Status: statusProto(ctxErr(err))}
+	}
+	if s.solveHook != nil {
+		s.solveHook(ctx, "FlashBatch")
+	}
+	res, err := s.flashTimed(ctx, job)
+	if err != nil {
+		return &fugadv1.FlashBatchItem{Status: statusProto(err)}
+	}
+	return &fugadv1.FlashBatchItem{Status: statusProto(nil), Result: res}
+}
+
+// streamSession is the state a FlashStream carries between messages.
+type streamSession struct {
+	fluid *compiledFluid
+	def   []float64
+	opts  *fugadv1.SolverOptions
+}
+
+// FlashStream answers one flash per request message, in order. A message
+// with a problem gets a response with its own error status; the stream
+// goes on. A stream idle for longer than Config.StreamIdleTimeout is ended
+// with DEADLINE_EXCEEDED (reason STREAM_IDLE). Each message takes one
+// solver slot while it solves, and gets UNAVAILABLE (reason OVERLOADED)
+// in its status when none is free.
+func (s *Server) FlashStream(stream fugadv1.FugadService_FlashStreamServer) error {
+	ctx := stream.Context()
+	ci := info(ctx)
+	type received struct {
+		req *fugadv1.FlashStreamRequest
+		err error
+	}
+	recv := make(chan received)
+	go func() {
+		for {
+			req, err := stream.Recv()
+			select {
+			case recv <- received{req, err}:
+			case <-ctx.Done():
+				return
+			}
+			if err != nil {
+				return
+			}
+		}
+	}()
+	var sess streamSession
+	idle := time.NewTimer(s.cfg.StreamIdleTimeout)
+	defer idle.Stop()
+	for {
+		var r received
+		select {
+		case <-ctx.Done():
+			return ctxErr(ctx.Err())
+		case <-idle.C:
+			return errStreamIdle(s.cfg.StreamIdleTimeout.String())
+		case r = <-recv:
+		}
+		if errors.Is(r.err, io.EOF) {
+			return nil
+		}
+		if r.err != nil {
+			if _, ok := status.FromError(r.err); ok {
+				return r.err
+			}
+			return ctxErr(r.err)
+		}
+		idle.Reset(s.cfg.StreamIdleTimeout)
+		ci.states.Add(1)
+		resp := &fugadv1.FlashStreamResponse{Sequence: r.req.GetSequence()}
+		res, err := s.streamMessage(ctx, &sess, r.req)
+		resp.Status = statusProto(err)
+		resp.Result = res
+		if err := stream.Send(resp); err != nil {
+			return err
+		}
+	}
+}
+
+// streamMessage validates and solves one stream message, updating the
+// session's fluid, default composition and options.
+func (s *Server) streamMessage(ctx context.Context, sess *streamSession, req *fugadv1.FlashStreamRequest) (*fugadv1.FlashResult, error) {
+	var v violations
+	var (
+		model eos.Model
+		comps []component.Component
+		opts  eos.Options
+	)
+	newFluid := req.GetFluid() != nil
+	if newFluid {
+		model, comps, opts = s.checkFluid(&v, "fluid", req.GetFluid())
+	} else if sess.fluid == nil {
+		v.add("fluid", "required on the first message of a stream (and after a message whose fluid was rejected)")
+	}
+	n := -1
+	switch {
+	case newFluid:
+		n = s.fluidComponentCount(req.GetFluid())
+	case sess.fluid != nil:
+		n = sess.fluid.n()
+	}
+	def := sess.def
+	if newFluid {
+		def = nil // a new fluid invalidates the old default composition
+	}
+	if n > 0 && len(req.GetMoleFractions()) > 0 {
+		def = composition(&v, "mole_fractions", req.GetMoleFractions(), n)
+	}
+	solverOptions(&v, "options", req.GetOptions())
+	var fs flashState
+	if n > 0 {
+		if len(req.GetState().GetMoleFractions()) == 0 && def == nil {
+			v.add("state.mole_fractions", "required: no composition in the state and no default for the stream")
+		}
+		fs = checkFlashState(&v, "state", req.GetState(), n, def)
+	}
+	if err := v.err(); err != nil {
+		if newFluid {
+			sess.fluid, sess.def = nil, nil
+		}
+		return nil, err
+	}
+	if newFluid {
+		cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+		if err != nil {
+			sess.fluid, sess.def = nil, nil
+			return nil, err
+		}
+		sess.fluid = cf
+	}
+	sess.def = def
+	if req.GetOptions() != nil {
+		sess.opts = req.GetOptions()
+	}
+	mctx, cancel := context.WithTimeout(ctx, s.cfg.MaxDeadline)
+	defer cancel()
+	job := &flashJob{fluid: sess.fluid, state: fs, opts: sess.opts, bypass: req.GetBypassCache()}
+	var res *fugadv1.FlashResult
+	err := s.inSlot(mctx, "FlashStream", req, func() error {
+		var err error
+		res, err = s.flashTimed(mctx, job)
+		return err
+	})
+	return res, err
+}
+
+// SaturationPoint finds a bubble or dew point.
+func (s *Server) SaturationPoint(ctx context.Context, req *fugadv1.SaturationPointRequest) (*fugadv1.SaturationPointResponse, error) {
+	info(ctx).states.Add(1)
+	var v violations
+	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	n := s.fluidComponentCount(req.GetFluid())
+	var x []float64
+	if n > 0 {
+		x = composition(&v, "mole_fractions", req.GetMoleFractions(), n)
+		warmStart(&v, "warm_start", req.GetWarmStart(), n)
+	}
+	switch t := req.GetType(); t {
+	case fugadv1.SaturationType_SATURATION_TYPE_BUBBLE, fugadv1.SaturationType_SATURATION_TYPE_DEW:
+	default:
+		v.add("type", "required: SATURATION_TYPE_BUBBLE or SATURATION_TYPE_DEW (got %v)", t)
+	}
+	switch sp := req.GetSpecified().(type) {
+	case *fugadv1.SaturationPointRequest_TemperatureK:
+		checkTemperature(&v, "temperature_k", sp.TemperatureK)
+	case *fugadv1.SaturationPointRequest_PressurePa:
+		checkPressure(&v, "pressure_pa", sp.PressurePa)
+	default:
+		v.add("specified", "required: one of temperature_k, pressure_pa")
+	}
+	solverOptions(&v, "options", req.GetOptions())
+	if err := v.err(); err != nil {
+		return nil, err
+	}
+	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	if err != nil {
+		return nil, err
+	}
+	var resp *fugadv1.SaturationPointResponse
+	err = s.inSlot(ctx, "SaturationPoint", req, func() error {
+		start := time.Now()
+		var err error
+		if resp, err = s.solveSaturation(ctx, cf, req, x); err == nil {
+			s.metrics.observeSolve("saturation", time.Since(start), resp.GetReport(), 0)
+		}
+		return err
+	})
+	return resp, err
+}
+
+// Default pressures of PhaseEnvelopeRequest.
+const (
+	defaultEnvelopeStartPa = 1e5
+	defaultEnvelopeMaxPa   = 1e8
+)
+
+// PhaseEnvelope traces the phase envelope of a feed.
+func (s *Server) PhaseEnvelope(ctx context.Context, req *fugadv1.PhaseEnvelopeRequest) (*fugadv1.PhaseEnvelopeResponse, error) {
+	info(ctx).states.Add(1)
+	var v violations
+	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	var x []float64
+	if n := s.fluidComponentCount(req.GetFluid()); n > 0 {
+		x = composition(&v, "mole_fractions", req.GetMoleFractions(), n)
+	}
+	start, top := req.GetStartPressurePa(), req.GetMaximumPressurePa()
+	if start != 0 {
+		checkPressure(&v, "start_pressure_pa", start)
+	} else {
+		start = defaultEnvelopeStartPa
+	}
+	if top != 0 {
+		checkPressure(&v, "maximum_pressure_pa", top)
+	} else {
+		top = defaultEnvelopeMaxPa
+	}
+	if finite(start) && finite(top) && start >= top {
+		v.add("maximum_pressure_pa", "must exceed start_pressure_pa (%g Pa ≥ %g Pa)", start, top)
+	}
+	maxPoints := int(req.GetMaxPoints())
+	switch {
+	case maxPoints == 0:
+		maxPoints = s.cfg.MaxEnvelopePoints
+	case maxPoints > s.cfg.MaxEnvelopePoints:
+		v.limit("max_points", "is %d, the limit is %d", maxPoints, s.cfg.MaxEnvelopePoints)
+	case maxPoints < 3:
+		v.add("max_points", "must be at least 3 (or 0 for the server's limit), got %d", maxPoints)
+	}
+	solverOptions(&v, "options", req.GetOptions())
+	if err := v.err(); err != nil {
+		return nil, err
+	}
+	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	if err != nil {
+		return nil, err
+	}
+	var resp *fugadv1.PhaseEnvelopeResponse
+	err = s.inSlot(ctx, "PhaseEnvelope", req, func() error {
+		t0 := time.Now()
+		var err error
+		if resp, err = s.solveEnvelope(ctx, cf, req, x, maxPoints); err == nil {
+			s.metrics.observeSolve("envelope", time.Since(t0), resp.GetReport(), 0)
+		}
+		return err
+	})
+	return resp, err
+}

@@ -1,0 +1,212 @@
+// Package server implements the fugad gRPC service: it validates requests,
+// translates them between the wire contract (api/fugad/v1) and the thermo
+// packages, bounds concurrent solves, and reports what the solvers did as
+// metrics and logs.
+//
+// # Errors
+//
+// Handlers return only gRPC status errors, each with a
+// google.rpc.ErrorInfo (domain "fugad", an UPPER_SNAKE reason) and the
+// detail that helps: google.rpc.BadRequest field violations naming the
+// field path and the reason for INVALID_ARGUMENT, a NotConvergedDetail with
+// the best estimate for ABORTED/NOT_CONVERGED. See the service comment in
+// api/fugad/v1/fugad_service.proto for the full table.
+//
+// # Validation
+//
+// Every field is checked before any solver runs: numbers must be finite and
+// within generous physical ranges (temperatures 1–10⁴ K, pressures
+// 10⁻³–10¹⁰ Pa), compositions must have one non-negative entry per
+// component and sum to 1 within 1e-6 relative (such sums are normalised to
+// exactly 1; others are rejected), enums must be specified, and sizes must
+// be within the configured Limits.
+//
+// # Load
+//
+// A fixed number of solver slots (Config.MaxConcurrentSolves) bounds the
+// CPU work in progress. A call that finds every slot busy is answered at
+// once with UNAVAILABLE (reason OVERLOADED) and counted in
+// fugad_shed_total, so that a client's retry policy sends it to another
+// replica instead of queueing here.
+package server
+
+import (
+	"context"
+	"errors"
+	"runtime"
+	"sync/atomic"
+
+	"github.com/prometheus/client_golang/prometheus"
+	"go.uber.org/zap"
+	"golang.org/x/sync/semaphore"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
+	"google.golang.org/protobuf/proto"
+
+	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
+	"github.com/fugad/fugad/thermo/component"
+)
+
+// Server implements fugadv1.FugadServiceServer.
+type Server struct {
+	fugadv1.UnimplementedFugadServiceServer
+
+	cfg     Config
+	log     *zap.Logger
+	metrics *metrics
+	pool    *semaphore.Weighted
+
+	// fluids and results are the caches; nil means no caching.
+	fluids  fluidStore
+	results resultStore
+
+	// solveHook, when set, runs inside every solver slot before the solve.
+	// Tests use it to hold slots and to inject panics.
+	solveHook func(ctx context.Context, method string)
+}
+
+var _ fugadv1.FugadServiceServer = (*Server)(nil)
+
+// New returns a Server with the given configuration, logging to log and
+// registering its metrics with reg. log may be nil (no logging).
+func New(cfg Config, log *zap.Logger, reg prometheus.Registerer) (*Server, error) {
+	cfg, err := cfg.withDefaults()
+	if err != nil {
+		return nil, err
+	}
+	if log == nil {
+		log = zap.NewNop()
+	}
+	m, err := newMetrics(reg)
+	if err != nil {
+		return nil, err
+	}
+	s := &Server{
+		cfg:     cfg,
+		log:     log,
+		metrics: m,
+		pool:    semaphore.NewWeighted(int64(cfg.MaxConcurrentSolves)),
+	}
+	if !cfg.Cache.Disabled {
+		c, err := newCaches(cfg.Cache, cfg.DataVersion+"/"+cfg.ModelVersion, func(p any) error { return s.panicked("cache", nil, p) })
+		if err != nil {
+			return nil, err
+		}
+		if err := registerCacheMetrics(reg, c); err != nil {
+			return nil, err
+		}
+		s.fluids, s.results = c, c
+	}
+	return s, nil
+}
+
+// Config returns the server's configuration with defaults filled in.
+func (s *Server) Config() Config { return s.cfg }
+
+// componentDataVersion is the version of the component data bank.
+func componentDataVersion() string { return component.DataVersion }
+
+// fluidStore caches compiled fluids under the bytes of their definition.
+type fluidStore interface {
+	compiled(fl *fugadv1.Fluid, build func() (*compiledFluid, error)) (*compiledFluid, error)
+}
+
+// resultStore caches serialised responses under a canonical request key.
+// solve returns the response bytes and whether they may be stored.
+type resultStore interface {
+	do(ctx context.Context, key []byte, solve func(ctx context.Context) ([]byte, bool, error)) (value []byte, hit bool, err error)
+}
+
+// callInfo accumulates what one call did, for its log line.
+type callInfo struct {
+	states    atomic.Int64
+	cacheHits atomic.Int64
+}
+
+type callInfoKey struct{}
+
+// info returns the call's callInfo; a throwaway one outside the logging
+// interceptor.
+func info(ctx context.Context) *callInfo {
+	if ci, ok := ctx.Value(callInfoKey{}).(*callInfo); ok {
+		return ci
+	}
+	return new(callInfo)
+}
+
+// slot takes one solver slot, or sheds the call at once. The returned
+// function releases the slot.
+func (s *Server) slot(method string) (func(), error) {
+	if !s.pool.TryAcquire(1) {
+		s.metrics.shed.WithLabelValues(method).Inc()
+		return nil, errOverloaded(method)
+	}
+	return func() { s.pool.Release(1) }, nil
+}
+
+// extraSlots takes up to want further slots without waiting and returns how
+// many it got; release them with releaseSlots.
+func (s *Server) extraSlots(want int) int {
+	got := 0
+	for got < want && s.pool.TryAcquire(1) {
+		got++
+	}
+	return got
+}
+
+func (s *Server) releaseSlots(n int) {
+	if n > 0 {
+		s.pool.Release(int64(n))
+	}
+}
+
+// ctxErr converts a context's end into a status error.
+func ctxErr(err error) error {
+	switch {
+	case err == nil:
+		return nil
+	case errors.Is(err, context.DeadlineExceeded):
+		return withDetails(codes.DeadlineExceeded, "deadline exceeded before the solve finished", ReasonDeadline, nil)
+	case errors.Is(err, context.Canceled):
+		return withDetails(codes.Canceled, "call cancelled", ReasonCancelled, nil)
+	}
+	if _, ok := status.FromError(err); ok {
+		return err
+	}
+	return errInternal("unexpected context error")
+}
+
+// inSlot runs solve while holding one solver slot: it sheds the call when
+// no slot is free, stops before starting when ctx has ended, and runs the
+// test hook. A panic in solve is recovered here, logged with req and
+// answered INTERNAL, also when solve runs on a cache goroutine.
+func (s *Server) inSlot(ctx context.Context, method string, req proto.Message, solve func() error) (err error) {
+	release, err := s.slot(method)
+	if err != nil {
+		return err
+	}
+	defer release()
+	defer func() {
+		if p := recover(); p != nil {
+			err = s.panicked("/"+fugadv1.FugadService_ServiceDesc.ServiceName+"/"+method, req, p)
+		}
+	}()
+	if err := ctx.Err(); err != nil {
+		return ctxErr(err)
+	}
+	if s.solveHook != nil {
+		s.solveHook(ctx, method)
+		if err := ctx.Err(); err != nil {
+			return ctxErr(err)
+		}
+	}
+	return solve()
+}
+
+// report returns a SolverReport with the versions filled in.
+func (s *Server) report() *fugadv1.SolverReport {
+	return &fugadv1.SolverReport{DataVersion: s.cfg.DataVersion, ModelVersion: s.cfg.ModelVersion}
+}
+
+// batchWorkers bounds the goroutines one FlashBatch call uses.
+func batchWorkers(states int) int { return max(1, min(states, runtime.GOMAXPROCS(0))) }
