@@ -1,0 +1,111 @@
+package flash
+
+import (
+	"context"
+	"testing"
+
+	"github.com/fugad/fugad/thermo/eos"
+)
+
+// benchGas is a 10-component natural gas of our own; benchGasWater the
+// same size with a heavier end and free water (vapour, hydrocarbon liquid
+// and aqueous phase at 310 K, 7 MPa).
+func benchGas(b *testing.B) (*eos.Mixture, []float64) {
+	return fluid(b, eos.PR78, "nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "isobutane", "n-butane", "n-pentane", "n-hexane", "n-heptane"),
+		[]float64{0.01, 0.02, 0.80, 0.07, 0.04, 0.015, 0.015, 0.01, 0.01, 0.01}
+}
+
+func benchGasWater(b *testing.B) (*eos.Mixture, []float64) {
+	return fluid(b, eos.PR78, "nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "n-butane", "n-pentane", "n-hexane", "n-decane", "water"),
+		[]float64{0.005, 0.01, 0.50, 0.06, 0.05, 0.04, 0.03, 0.04, 0.10, 0.165}
+}
+
+// benchmarkFlash times a T–P flash with a reused workspace and result and
+// reports ln φ evaluations per flash; phases is the expected phase count.
+func benchmarkFlash(b *testing.B, mx *eos.Mixture, z []float64, T, P float64, phases int, warm bool) {
+	ws, res := NewWorkspace(mx), NewResult(mx)
+	ctx := context.Background()
+	if err := ws.PT(ctx, T, P, z, Options{}, nil, res); err != nil {
+		b.Fatal(err)
+	}
+	if len(res.Phases) != phases {
+		b.Fatalf("%d phases at %g K, %g Pa, want %d", len(res.Phases), T, P, phases)
+	}
+	// The warm start comes from a state 0.5 K and 0.5 % away, as from the
+	// previous timestep of a simulation.
+	prev := NewResult(mx)
+	if err := ws.PT(ctx, T-0.5, P*0.995, z, Options{}, nil, prev); err != nil {
+		b.Fatal(err)
+	}
+	est := prev.Estimate()
+	var e *Estimate
+	if warm {
+		e = &est
+	}
+	evals := 0
+	b.ReportAllocs()
+	for b.Loop() {
+		if err := ws.PT(ctx, T, P, z, Options{}, e, res); err != nil {
+			b.Fatal(err)
+		}
+		evals += res.Report.LnPhiEvaluations
+	}
+	if warm && res.Report.Path != PathWarm {
+		b.Fatalf("warm start took path %v", res.Report.Path)
+	}
+	b.ReportMetric(float64(evals)/float64(b.N), "lnphi/op")
+}
+
+func BenchmarkFlashSinglePhase(b *testing.B) {
+	mx, z := benchGas(b)
+	benchmarkFlash(b, mx, z, 350, 5e6, 1, false)
+}
+
+func BenchmarkFlashTwoPhase(b *testing.B) {
+	mx, z := benchGas(b)
+	benchmarkFlash(b, mx, z, 250, 5e6, 2, false)
+}
+
+func BenchmarkFlashNearCritical(b *testing.B) {
+	mx, z := benchGas(b)
+	benchmarkFlash(b, mx, z, 230, 8.5e6, 2, false)
+}
+
+func BenchmarkFlashWarmTwoPhase(b *testing.B) {
+	mx, z := benchGas(b)
+	benchmarkFlash(b, mx, z, 250, 5e6, 2, true)
+}
+
+func BenchmarkFlashThreePhaseWater(b *testing.B) {
+	mx, z := benchGasWater(b)
+	benchmarkFlash(b, mx, z, 310, 7e6, 3, false)
+}
+
+func BenchmarkFlashWarmThreePhaseWater(b *testing.B) {
+	mx, z := benchGasWater(b)
+	benchmarkFlash(b, mx, z, 310, 7e6, 3, true)
+}
+
+func BenchmarkFlashTwoPhaseNoProperties(b *testing.B) {
+	mx, z := benchGas(b)
+	ws, res := NewWorkspace(mx), NewResult(mx)
+	b.ReportAllocs()
+	for b.Loop() {
+		if err := ws.PT(context.Background(), 250, 5e6, z, Options{NoProperties: true}, nil, res); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkLnPhiReference is one ln φ evaluation of the 10-component gas,
+// the unit the flash figures are compared with.
+func BenchmarkLnPhiReference(b *testing.B) {
+	mx, z := benchGas(b)
+	ws, f := mx.NewWorkspace(), mx.NewFugacity()
+	b.ReportAllocs()
+	for b.Loop() {
+		if err := mx.Fugacity(ws, 250, 5e6, z, eos.RootMinGibbs, 0, f); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

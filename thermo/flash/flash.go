@@ -1,0 +1,487 @@
+package flash
+
+import (
+	"context"
+	"fmt"
+	"math"
+
+	"github.com/fugad/fugad/thermo/eos"
+)
+
+// begin validates a state and prepares the workspace for it.
+func (ws *Workspace) begin(ctx context.Context, set settings, rep *Report, T, P float64, z []float64, field string) error {
+	if !finite(T) || T <= 0 {
+		return &InputError{Field: "T", Value: T, Reason: "temperature must be a finite positive number of kelvin"}
+	}
+	if !finite(P) || P <= 0 {
+		return &InputError{Field: "P", Value: P, Reason: "pressure must be a finite positive number of pascal"}
+	}
+	if len(z) != ws.n {
+		return &InputError{Field: field, Value: float64(len(z)), Reason: fmt.Sprintf("composition has %d entries, the mixture %d components", len(z), ws.n)}
+	}
+	s := 0.0
+	for i, v := range z {
+		if !finite(v) || v < 0 {
+			return &InputError{Field: fmt.Sprintf("%s[%d]", field, i), Value: v, Reason: "mole fraction must be finite and non-negative"}
+		}
+		s += v
+	}
+	if !(s > 0) || math.IsInf(s, 0) {
+		return &InputError{Field: field, Value: s, Reason: "composition must have a positive, finite sum"}
+	}
+	ws.ctx, ws.set, ws.rep, ws.T, ws.P = ctx, set, rep, T, P
+	ws.act = ws.act[:0]
+	for i, v := range z {
+		ws.z[i] = v / s
+		if ws.z[i] > 0 {
+			ws.act = append(ws.act, i)
+			ws.lnz[i] = math.Log(ws.z[i])
+		}
+	}
+	ws.mx.LnWilsonK(T, P, ws.lnKw)
+	ws.setupTrials()
+	ws.m = 0
+	return nil
+}
+
+// PT computes the phase equilibrium of feed z (mole fractions or mole
+// numbers) at temperature T (K) and pressure P (Pa) with up to three
+// phases, writing it into res (made by NewResult for the same mixture).
+//
+// Without an estimate (warm == nil) the feed's stability is tested
+// (Michelsen 1982a); an unstable feed is split into two phases starting
+// from the trial that proved it unstable, the split is tested again, and
+// a third phase is added from the trial that proves the two-phase split
+// unstable. Each split is solved by successive substitution and then
+// Newton's method on the Gibbs energy (Michelsen 1982b) to
+// max |ln f_i,α − ln f_i,β| ≤ Options.Tolerance. With an estimate of two
+// or three phases the split starts from it with Newton steps and skips
+// the stability test of the feed; the converged result is tested for
+// stability and, should the estimate fail in any way, the cold path is
+// run instead (Report.Path says which). The result is never unstable by
+// the test: a split that stays unstable at Options.MaxPhases is an error.
+//
+// Errors: *InputError for bad arguments; *ConvergenceError (ErrNotConverged)
+// when no converged, stable split is found, with the best estimate left in
+// res; a wrapped ctx.Err() or ErrStopped on cancellation (checked in every
+// outer iteration). It allocates nothing.
+func (ws *Workspace) PT(ctx context.Context, T, P float64, z []float64, opts Options, warm *Estimate, res *Result) error {
+	set, err := opts.resolve()
+	if err != nil {
+		return err
+	}
+	if res == nil || res.n != ws.n {
+		return &InputError{Field: "res", Value: float64(ws.n), Reason: "Result not sized for this mixture (use NewResult)"}
+	}
+	rep := &res.Report
+	*rep = Report{}
+	if err := ws.begin(ctx, set, rep, T, P, z, "z"); err != nil {
+		return err
+	}
+	warmPhases, err := ws.copyWarm(warm)
+	if err != nil {
+		return err
+	}
+	path := PathCold
+	if warmPhases >= 2 && warmPhases <= set.maxPhases {
+		ok, err := ws.warmSolve(warmPhases, warm)
+		if err != nil {
+			return err
+		}
+		if ok {
+			return ws.finish(res, PathWarm)
+		}
+		path = PathWarmFallback
+	}
+	if err := ws.cold(); err != nil {
+		ws.fill(res, path, false)
+		return err
+	}
+	if warmPhases == 1 {
+		path = PathWarm
+		if ws.m != 1 {
+			path = PathWarmFallback
+		}
+	}
+	return ws.finish(res, path)
+}
+
+// copyWarm validates an estimate and copies it into the workspace (so an
+// estimate that shares memory with the result is safe). It returns the
+// phase count, 0 without an estimate.
+func (ws *Workspace) copyWarm(e *Estimate) (int, error) {
+	if e == nil || e.Phases == 0 {
+		return 0, nil
+	}
+	k := e.Phases
+	if k < 1 || k > MaxPhases {
+		return 0, &InputError{Field: "warm.Phases", Value: float64(k), Reason: "must be 1, 2 or 3"}
+	}
+	if k == 1 {
+		return 1, nil
+	}
+	if e.Beta != nil && len(e.Beta) != k {
+		return 0, &InputError{Field: "warm.Beta", Value: float64(len(e.Beta)), Reason: "needs one amount per phase"}
+	}
+	for j, b := range e.Beta {
+		if !finite(b) {
+			return 0, &InputError{Field: fmt.Sprintf("warm.Beta[%d]", j), Value: b, Reason: "must be finite"}
+		}
+		ws.warmBeta[j] = b
+	}
+	if e.Beta == nil {
+		for j := range k {
+			ws.warmBeta[j] = 1 / float64(k)
+		}
+	}
+	switch {
+	case e.X != nil:
+		if len(e.X) != k {
+			return 0, &InputError{Field: "warm.X", Value: float64(len(e.X)), Reason: "needs one composition per phase"}
+		}
+		for j, x := range e.X {
+			if len(x) != ws.n {
+				return 0, &InputError{Field: fmt.Sprintf("warm.X[%d]", j), Value: float64(len(x)), Reason: fmt.Sprintf("composition has %d entries, the mixture %d components", len(x), ws.n)}
+			}
+			for i, v := range x {
+				if !finite(v) || v < 0 {
+					return 0, &InputError{Field: fmt.Sprintf("warm.X[%d][%d]", j, i), Value: v, Reason: "mole fraction must be finite and non-negative"}
+				}
+			}
+			copy(ws.warmX[j], x)
+		}
+	case e.LnK != nil && k == 2:
+		if len(e.LnK) != ws.n {
+			return 0, &InputError{Field: "warm.LnK", Value: float64(len(e.LnK)), Reason: fmt.Sprintf("has %d entries, the mixture %d components", len(e.LnK), ws.n)}
+		}
+		for i, v := range e.LnK {
+			if !finite(v) {
+				return 0, &InputError{Field: fmt.Sprintf("warm.LnK[%d]", i), Value: v, Reason: "must be finite"}
+			}
+			// Store K as the pair of compositions (K_i, 1) up to scale.
+			ws.warmX[0][i] = math.Exp(math.Max(-700, math.Min(700, v)))
+			ws.warmX[1][i] = 1
+		}
+	default:
+		return 0, &InputError{Field: "warm.X", Reason: "an estimate of two or more phases needs X (or LnK for two phases)"}
+	}
+	return k, nil
+}
+
+// warmSolve converges the split from the estimate and tests the result.
+// It reports false when the estimate does not lead to a stable split.
+func (ws *Workspace) warmSolve(k int, e *Estimate) (bool, error) {
+	ws.m = k
+	var st splitStatus
+	var err error
+	if k == 2 {
+		for _, i := range ws.act {
+			ws.lnK[i] = safeLog(ws.warmX[0][i]) - safeLog(ws.warmX[1][i])
+		}
+		if ws.setTwoFromK(ws.warmBeta[0]) != rrRoot {
+			return false, nil
+		}
+		st, err = ws.solveSplit(ws.betaInside(), false)
+	} else {
+		for j := range k {
+			p := &ws.ph[j]
+			s := 0.0
+			for _, i := range ws.act {
+				s += ws.warmX[j][i]
+			}
+			if !(s > 0) {
+				return false, nil
+			}
+			for i := range ws.n {
+				p.x[i] = 0
+			}
+			for _, i := range ws.act {
+				p.x[i] = ws.warmX[j][i] / s
+			}
+			p.beta = math.Max(ws.warmBeta[j], 1e-3)
+			if err := ws.evalPhase(j, 0); err != nil {
+				return false, err
+			}
+		}
+		if err := ws.ssMulti(0); err != nil {
+			return false, err
+		}
+		if ws.m < 2 {
+			return false, nil
+		}
+		st, err = ws.solveSplit(true, true)
+	}
+	if err != nil || st != splitOK {
+		return false, err
+	}
+	stable, _, err := ws.resultStable()
+	return stable, err
+}
+
+// cold runs the full path: stability of the feed, two-phase split, test,
+// third phase, test.
+func (ws *Workspace) cold() error {
+	if err := ws.feedReference(); err != nil {
+		return err
+	}
+	ws.m = 1
+	ws.ph[0].beta = 1
+	if ws.vapourLike(&ws.ph[0]) {
+		// A vapour-like feed splits off a liquid first (Michelsen 1982a).
+		ws.trials[0], ws.trials[1] = ws.trials[1], ws.trials[0]
+	}
+	tpd, best, err := ws.stabilityTest(ws.lnz, 0)
+	if err != nil {
+		return err
+	}
+	if !(tpd < -ws.set.tpdTol) || ws.set.maxPhases == 1 {
+		ws.m = 1
+		copy(ws.ph[0].x, ws.z)
+		return nil
+	}
+	// Starting K-values, best first: both Wilson trials when both are
+	// unstable, the most negative trial against the feed, Wilson's K.
+	var starts [3]int
+	ns := 0
+	if ws.nTrial >= 2 && ws.trialOK[0] && ws.trialOK[1] && ws.trialT[0] < -ws.set.tpdTol && ws.trialT[1] < -ws.set.tpdTol {
+		starts[ns] = -2
+		ns++
+	}
+	starts[ns] = best
+	ns++
+	starts[ns] = -1
+	ns++
+	var lastErr error
+	for s := range ns {
+		ws.m = 2
+		switch t := starts[s]; {
+		case t == -2:
+			for _, i := range ws.act {
+				ws.lnK[i] = safeLog(ws.trialW[0][i]) - safeLog(ws.trialW[1][i])
+			}
+		case t == -1:
+			copy(ws.lnK, ws.lnKw)
+		default:
+			for _, i := range ws.act {
+				ws.lnK[i] = safeLog(ws.trialW[t][i]) - math.Log(ws.z[i])
+			}
+		}
+		if ws.setTwoFromK(0.5) != rrRoot {
+			continue
+		}
+		err := ws.phaseLoop()
+		if err == nil {
+			return nil
+		}
+		if _, conv := err.(*ConvergenceError); !conv {
+			return err
+		}
+		lastErr = err
+	}
+	if lastErr == nil {
+		lastErr = &ConvergenceError{Stage: "two-phase split", Iterations: ws.rep.SSIterations + ws.rep.NewtonIterations, Residual: math.Inf(1), Phases: 1}
+	}
+	return lastErr
+}
+
+// phaseLoop solves the split in ws.ph, tests it, and adds a phase while
+// the test fails and the phase cap allows.
+func (ws *Workspace) phaseLoop() error {
+	fresh := false
+	for round := 0; round < 2*MaxPhases; round++ {
+		st, err := ws.solveSplit(false, fresh)
+		if err != nil {
+			return err
+		}
+		if st != splitOK {
+			stage := "two-phase split"
+			if ws.m > 2 {
+				stage = "three-phase split"
+			}
+			if st == splitSingle && ws.m == 1 {
+				stage = "phase split (collapsed to one phase)"
+			}
+			return ws.convErr(stage)
+		}
+		stable, best, err := ws.resultStable()
+		if err != nil {
+			return err
+		}
+		if stable {
+			return nil
+		}
+		if ws.m >= ws.set.maxPhases || best < 0 {
+			return ws.convErr("stability of the result")
+		}
+		// Add the trial phase and balance the amounts with the convex split.
+		p := &ws.ph[ws.m]
+		copy(p.x, ws.trialW[best])
+		p.beta = 0.01
+		if err := ws.evalPhase(ws.m, 0); err != nil {
+			return err
+		}
+		ws.m++
+		if err := ws.ssMulti(0); err != nil {
+			return err
+		}
+		if ws.m < 2 {
+			return ws.convErr("three-phase split (collapsed)")
+		}
+		fresh = true
+	}
+	return ws.convErr("phase split")
+}
+
+// convErr builds the convergence error of the current split.
+func (ws *Workspace) convErr(stage string) error {
+	e := &ConvergenceError{Stage: stage, Iterations: ws.rep.SSIterations + ws.rep.NewtonIterations, Phases: ws.m}
+	if ws.m >= 2 {
+		e.Residual = ws.residual()
+	}
+	e.Beta = make([]float64, ws.m)
+	for k := range ws.m {
+		e.Beta[k] = ws.ph[k].beta
+	}
+	return e
+}
+
+// resultStable tests the converged split: trials against the fugacities
+// of phase 0, stopping trials that approach any present phase.
+func (ws *Workspace) resultStable() (bool, int, error) {
+	for _, i := range ws.act {
+		ws.d[i] = ws.ph[0].lnf[i]
+	}
+	tpd, best, err := ws.stabilityTest(ws.ph[0].lnx, ws.m)
+	if err != nil {
+		return false, -1, err
+	}
+	return !(tpd < -ws.set.tpdTol), best, nil
+}
+
+// vapourLike reports whether a phase is vapour-like by the pseudo-critical
+// volume criterion: v/b above the model's critical ratio Zc/Ωb.
+func (ws *Workspace) vapourLike(p *phaseState) bool {
+	b, c := 0.0, 0.0
+	for _, i := range ws.act {
+		b += p.x[i] * ws.mx.CoVolume(i)
+		c += p.x[i] * ws.mx.VolumeShift(i)
+	}
+	model := ws.mx.Model()
+	return (p.f.V+c)/b > model.CriticalCompressibility()/model.OmegaB()
+}
+
+// finish labels and orders the phases, fills res and its properties.
+func (ws *Workspace) finish(res *Result, path Path) error {
+	ws.fill(res, path, true)
+	if !ws.set.props {
+		return nil
+	}
+	var o Overall
+	for k := range res.Phases {
+		ph := &res.Phases[k]
+		pr, err := ws.mx.Properties(ws.ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
+		if err != nil {
+			return err
+		}
+		ph.Props = pr
+		b := ph.Beta
+		o.MolarVolume += b * pr.MolarVolume
+		o.MolarMass += b * pr.MolarMass
+		o.H += b * pr.H
+		o.S += b * pr.S
+		o.G += b * pr.G
+		o.U += b * pr.U
+		o.A += b * pr.A
+	}
+	o.MolarDensity = 1 / o.MolarVolume
+	o.MassDensity = o.MolarMass / o.MolarVolume
+	res.Overall = o
+	return nil
+}
+
+// fill copies the current split into res, labelled and ordered.
+func (ws *Workspace) fill(res *Result, path Path, converged bool) {
+	m := ws.m
+	if m < 1 {
+		m = 1
+		copy(ws.ph[0].x, ws.z)
+		ws.ph[0].beta = 1
+	}
+	if m == 1 {
+		ws.ph[0].beta = 1
+	}
+	var labels [MaxPhases + 1]Label
+	var order [MaxPhases + 1]int
+	vap := -1
+	for k := range m {
+		p := &ws.ph[k]
+		order[k] = k
+		if ws.water >= 0 && p.x[ws.water] > 0.5 {
+			labels[k] = LabelAqueous
+			continue
+		}
+		labels[k] = LabelLiquid
+		if vap < 0 || p.f.V > ws.ph[vap].f.V {
+			vap = k
+		}
+	}
+	if vap >= 0 && ws.vapourLike(&ws.ph[vap]) {
+		labels[vap] = LabelVapour
+	}
+	// Order: vapour, liquids by decreasing molar volume, aqueous.
+	rank := func(k int) int {
+		switch labels[k] {
+		case LabelVapour:
+			return 0
+		case LabelLiquid:
+			return 1
+		}
+		return 2
+	}
+	for a := 1; a < m; a++ {
+		for b := a; b > 0; b-- {
+			x, y := order[b-1], order[b]
+			if rank(y) < rank(x) || (rank(y) == rank(x) && ws.ph[y].f.V > ws.ph[x].f.V) {
+				order[b-1], order[b] = y, x
+			} else {
+				break
+			}
+		}
+	}
+	res.T, res.P = ws.T, ws.P
+	copy(res.Z, ws.z)
+	res.Phases = res.phaseBuf[:m]
+	for a := range m {
+		p := &ws.ph[order[a]]
+		dst := &res.phaseBuf[a]
+		dst.Label = labels[order[a]]
+		dst.Beta = p.beta
+		copy(dst.X, p.x)
+		copy(dst.LnPhi, p.f.LnPhi)
+		dst.Z = p.f.Z
+		dst.Props = eos.Properties{}
+	}
+	for i := range res.LnK {
+		res.LnK[i] = 0
+	}
+	if m >= 2 {
+		first, last := &res.phaseBuf[0], &res.phaseBuf[m-1]
+		for i := range res.LnK {
+			res.LnK[i] = last.LnPhi[i] - first.LnPhi[i]
+		}
+		for _, i := range ws.act {
+			res.LnK[i] = math.Log(first.X[i]) - math.Log(last.X[i])
+			if !finite(res.LnK[i]) {
+				res.LnK[i] = last.LnPhi[i] - first.LnPhi[i]
+			}
+		}
+	}
+	res.Overall = Overall{}
+	rep := &res.Report
+	rep.Path = path
+	rep.Phases = m
+	rep.Converged = converged
+	if m >= 2 {
+		rep.Residual = ws.residual()
+	}
+}

@@ -1,0 +1,98 @@
+package flash
+
+import "math"
+
+// cholesky factors the symmetric positive-definite n×n matrix a (row-major)
+// in place into its lower triangle L with a = L·Lᵀ. It reports false, with a
+// partly overwritten a, when a pivot is not positive.
+func cholesky(a []float64, n int) bool {
+	for j := range n {
+		rj := a[j*n : j*n+n]
+		s := rj[j]
+		for k := range j {
+			s -= rj[k] * rj[k]
+		}
+		if !(s > 0) {
+			return false
+		}
+		d := math.Sqrt(s)
+		rj[j] = d
+		for i := j + 1; i < n; i++ {
+			ri := a[i*n : i*n+n]
+			t := ri[j]
+			for k := range j {
+				t -= ri[k] * rj[k]
+			}
+			ri[j] = t / d
+		}
+	}
+	return true
+}
+
+// cholSolve solves L·Lᵀ·x = b in place (b becomes x) with the factor from
+// cholesky.
+func cholSolve(l []float64, n int, b []float64) {
+	for i := range n {
+		ri := l[i*n : i*n+n]
+		s := b[i]
+		for k := range i {
+			s -= ri[k] * b[k]
+		}
+		b[i] = s / ri[i]
+	}
+	for i := n - 1; i >= 0; i-- {
+		s := b[i]
+		for k := i + 1; k < n; k++ {
+			s -= l[k*n+i] * b[k]
+		}
+		b[i] = s / l[i*n+i]
+	}
+}
+
+// solveSPD solves h·x = −g for a symmetric matrix h (n×n, row-major),
+// writing x into dx. The system is scaled to unit diagonal (Jacobi
+// scaling); when the scaled matrix is not positive definite a multiple of
+// the identity is added, μ = 1e-8, 1e-6, …, 1e8 (Levenberg–Marquardt shift),
+// which keeps dx a descent direction of a function whose gradient is g.
+// work must hold n·n values and sc n values. It reports false when no
+// shift gives a factorisation (h has a non-finite entry).
+func solveSPD(h []float64, n int, g, dx, work, sc []float64) bool {
+	for i := range n {
+		d := h[i*n+i]
+		if !(d > 0) || math.IsInf(d, 0) {
+			d = math.Abs(d)
+			if !(d > 0) || math.IsInf(d, 0) {
+				d = 1
+			}
+		}
+		sc[i] = 1 / math.Sqrt(d)
+	}
+	mu := 0.0
+	for range 10 {
+		for i := range n {
+			for j := range n {
+				work[i*n+j] = h[i*n+j] * sc[i] * sc[j]
+			}
+			work[i*n+i] += mu
+		}
+		if cholesky(work, n) {
+			for i := range n {
+				dx[i] = -g[i] * sc[i]
+			}
+			cholSolve(work, n, dx)
+			for i := range n {
+				dx[i] *= sc[i]
+				if !finite(dx[i]) {
+					return false
+				}
+			}
+			return true
+		}
+		if mu == 0 {
+			mu = 1e-8
+		} else {
+			mu *= 100
+		}
+	}
+	return false
+}

@@ -1,0 +1,370 @@
+package flash
+
+import (
+	"context"
+	"math"
+
+	"github.com/fugad/fugad/thermo/component"
+	"github.com/fugad/fugad/thermo/eos"
+)
+
+// Stability criteria (dimensionless).
+const (
+	// trivialTol: a trial with Σ_i (ln W_i − ln x_i)² below it, x the
+	// reference or an existing phase, is converging to that phase and is
+	// stopped (Michelsen 1982a, section 4).
+	trivialTol = 1e-4
+	// stabConv ends a trial when max_i |ln W_i + ln φ_i(w) − d_i| is below it.
+	stabConv = 1e-9
+	// stabSS is the number of successive-substitution steps of a trial
+	// before it switches to Newton.
+	stabSS = 6
+	// existTol: a trial closer than this (same measure as trivialTol) to a
+	// phase already found is stopped: it is converging to that phase.
+	existTol = 1e-3
+	// acidGasTrial is the feed mole fraction of CO2 or H2S from which a
+	// pure-component-like trial of it is added.
+	acidGasTrial = 0.1
+	// posTM: a trial with tm above it whose extrapolated remaining
+	// decrease is below a quarter of tm is stable.
+	posTM = 1e-2
+)
+
+// StabilityResult is the outcome of a stability test.
+type StabilityResult struct {
+	// Stable is true when no trial reached tpd < −TPDTolerance.
+	Stable bool
+	// MinTPD is the smallest tangent-plane distance found,
+	//	tpd(w) = Σ_i w_i (ln w_i + ln φ_i(w) − ln x_i − ln φ_i(x)).
+	MinTPD float64
+	// W is the trial composition (mole fractions) of MinTPD.
+	W []float64
+	// Trials, Iterations and LnPhiEvaluations count the work done.
+	Trials, Iterations, LnPhiEvaluations int
+}
+
+// NewStabilityResult returns a StabilityResult sized for mx.
+func NewStabilityResult(mx *eos.Mixture) *StabilityResult {
+	return &StabilityResult{W: make([]float64, mx.N())}
+}
+
+// Stability tests whether a phase of composition x (mole fractions or mole
+// numbers) at T and P is stable, by Michelsen's tangent-plane criterion
+// (Michelsen 1982a): the phase is unstable when some trial composition w
+// has
+//
+//	tpd(w) = Σ_i w_i (ln w_i + ln φ_i(w) − d_i) < 0,  d_i = ln x_i + ln φ_i(x).
+//
+// The trials are the Wilson-K vapour-like and liquid-like compositions and
+// pure-component-like compositions of the components that may form a
+// second liquid (see the package documentation); each is iterated to a
+// stationary point of the modified function
+//
+//	tm(W) = 1 + Σ_i W_i (ln W_i + ln φ_i(w) − d_i − 1),  w = W/ΣW,
+//
+// first by successive substitution, ln W_i ← d_i − ln φ_i(w), then by
+// Newton's method in α_i = 2√W_i with the Hessian
+// δ_ij + √(W_i W_j)·∂ln φ_i/∂W_j (Michelsen & Mollerup 2007, ch. 10). A
+// trial that approaches x (the trivial solution) is stopped early. It
+// allocates nothing.
+func (ws *Workspace) Stability(ctx context.Context, T, P float64, x []float64, opts Options, out *StabilityResult) error {
+	set, err := opts.resolve()
+	if err != nil {
+		return err
+	}
+	var rep Report
+	if err := ws.begin(ctx, set, &rep, T, P, x, "x"); err != nil {
+		return err
+	}
+	if len(out.W) != ws.n {
+		return &InputError{Field: "out", Value: float64(len(out.W)), Reason: "StabilityResult not sized for this mixture (use NewStabilityResult)"}
+	}
+	if err := ws.feedReference(); err != nil {
+		return err
+	}
+	tpd, best, err := ws.stabilityTest(ws.lnz, 0)
+	if err != nil {
+		return err
+	}
+	out.MinTPD = tpd
+	out.Stable = !(tpd < -set.tpdTol)
+	if best >= 0 {
+		copy(out.W, ws.trialW[best])
+	} else {
+		copy(out.W, ws.z)
+	}
+	out.Trials = rep.StabilityTrials
+	out.Iterations = rep.StabilityIterations
+	out.LnPhiEvaluations = rep.LnPhiEvaluations
+	return nil
+}
+
+// feedReference sets d_i = ln z_i + ln φ_i(z) for a stability test of the
+// feed, keeping the feed's ln φ in phase slot 0.
+func (ws *Workspace) feedReference() error {
+	p := &ws.ph[0]
+	copy(p.x, ws.z)
+	if err := ws.evalPhase(0, 0); err != nil {
+		return err
+	}
+	for _, i := range ws.act {
+		ws.d[i] = p.lnf[i]
+	}
+	return nil
+}
+
+// setupTrials lists the trial phases for the current feed: the two Wilson
+// trials, then a pure-component-like trial for each component present of
+// family water, alcohol or glycol, or of family acid gas with a feed mole
+// fraction of at least acidGasTrial, and, when any of those is present,
+// for the heaviest component (by molar mass).
+func (ws *Workspace) setupTrials() {
+	ws.trials = ws.trials[:0]
+	ws.trials = append(ws.trials, trialSpec{kind: trialVapour}, trialSpec{kind: trialLiquid})
+	if len(ws.act) < 2 {
+		return
+	}
+	special := false
+	heavy := -1
+	for _, i := range ws.act {
+		switch ws.family[i] {
+		case component.FamilyWater, component.FamilyAlcohol, component.FamilyGlycol, component.FamilyAcidGas:
+			if ws.family[i] == component.FamilyAcidGas && ws.z[i] < acidGasTrial {
+				// A CO2- or H2S-rich liquid needs a feed rich in it.
+				continue
+			}
+			if len(ws.trials) < maxTrials-1 {
+				ws.trials = append(ws.trials, trialSpec{kind: trialPure, comp: i})
+				special = true
+			}
+		default:
+			if heavy < 0 || ws.mw[i] > ws.mw[heavy] {
+				heavy = i
+			}
+		}
+	}
+	if special && heavy >= 0 {
+		ws.trials = append(ws.trials, trialSpec{kind: trialPure, comp: heavy})
+	}
+}
+
+// stabilityTest runs every trial against the reference fugacities ws.d of
+// a phase with ln x = lnRef; the first nExist phases in ws.ph are phases
+// already found (a trial approaching one of them is stopped). It returns
+// the smallest tpd and the index of its trial (−1 when all trials were
+// trivial).
+func (ws *Workspace) stabilityTest(lnRef []float64, nExist int) (float64, int, error) {
+	minTPD, best := math.Inf(1), -1
+	ws.nTrial = len(ws.trials)
+	for t := range ws.trials {
+		tpd, ok, err := ws.runTrial(t, lnRef, nExist)
+		if err != nil {
+			return 0, -1, err
+		}
+		ws.trialT[t], ws.trialOK[t] = tpd, ok
+		if ok && tpd < minTPD {
+			minTPD, best = tpd, t
+		}
+		if ok && tpd < -0.05 {
+			// Clearly unstable; the remaining trials would not change the
+			// decision and the split starts from this one.
+			ws.nTrial = t + 1
+			break
+		}
+	}
+	if best < 0 {
+		minTPD = 0
+	}
+	ws.rep.MinTPD = minTPD
+	return minTPD, best, nil
+}
+
+// runTrial iterates trial t. It returns the trial's smallest tpd and
+// whether the trial ended away from the reference and the existing phases
+// (a trivial trial reports ok = false).
+func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool, error) {
+	ws.rep.StabilityTrials++
+	spec := ws.trials[t]
+	W, lnW := ws.W, ws.lnW
+	for i := range W {
+		W[i], lnW[i] = 0, 0
+	}
+	for _, i := range ws.act {
+		switch spec.kind {
+		case trialVapour:
+			lnW[i] = math.Log(ws.z[i]) + ws.lnKw[i]
+		case trialLiquid:
+			lnW[i] = math.Log(ws.z[i]) - ws.lnKw[i]
+		default:
+			if i == spec.comp {
+				lnW[i] = math.Log(0.999)
+			} else {
+				lnW[i] = math.Log(1e-3 * ws.z[i])
+			}
+		}
+		W[i] = math.Exp(lnW[i])
+	}
+	wbest := ws.trialW[t]
+	bestTPD := math.Inf(1)
+	tmAcc := math.Inf(1)
+	newton := false
+	step := 1.0
+	ok := true
+	tmPrev, dPrev := math.Inf(1), math.Inf(1)
+	for it := 0; it < ws.set.maxIt; it++ {
+		if err := ws.stop(); err != nil {
+			return 0, false, err
+		}
+		ws.rep.StabilityIterations++
+		sw := 0.0
+		for _, i := range ws.act {
+			sw += W[i]
+		}
+		if !(sw > 0) || math.IsInf(sw, 0) {
+			break
+		}
+		for _, i := range ws.act {
+			ws.w[i] = W[i] / sw
+		}
+		want := eos.Want(0)
+		if newton {
+			want = eos.WantN
+		}
+		if err := ws.eval(ws.w, want, ws.tf); err != nil {
+			return 0, false, err
+		}
+		lp := ws.tf.LnPhi
+		tpd, tm, res := 0.0, 1.0, 0.0
+		lsw := math.Log(sw)
+		for _, i := range ws.act {
+			r := lnW[i] + lp[i] - ws.d[i]
+			ws.lnWn[i] = r
+			tpd += ws.w[i] * (r - lsw)
+			tm += W[i] * (r - 1)
+			res = math.Max(res, math.Abs(r))
+		}
+		if newton && tm > tmAcc+1e-12*math.Abs(tmAcc) && step > 1e-3 {
+			// Backtrack along the last Newton direction.
+			step *= 0.5
+			ws.alphaStep(step)
+			continue
+		}
+		if tpd < bestTPD {
+			bestTPD = tpd
+			copy(wbest, ws.w)
+		}
+		if tpd < -ws.set.tpdTol && (it >= 2 || tpd < -0.01 || res < 1e-6) {
+			return bestTPD, true, nil
+		}
+		// Distance of the next iterate from the reference and from every
+		// phase already found.
+		near := ws.dist(lnW, ws.lnWn, lnRef) < trivialTol
+		for k := 0; k < nExist && !near; k++ {
+			near = ws.dist(lnW, ws.lnWn, ws.ph[k].lnx) < existTol
+		}
+		if near {
+			ok = false
+			break
+		}
+		if res < stabConv {
+			break
+		}
+		// Successive substitution decreases tm monotonically and linearly
+		// (Michelsen 1982a); when the geometric extrapolation of the
+		// decrease still leaves tm clearly positive the trial cannot reach
+		// a negative tpd and is stopped.
+		if !newton && it >= 2 {
+			d := tmPrev - tm
+			if r := d / dPrev; it >= 3 && d >= 0 && r >= 0 && r < 0.8 && tm > posTM && d*r/(1-r) < 0.25*tm {
+				break
+			}
+			dPrev = d
+		} else if it >= 1 {
+			dPrev = tmPrev - tm
+		}
+		tmPrev = tm
+		if !newton {
+			for _, i := range ws.act {
+				lnW[i] -= ws.lnWn[i]
+				W[i] = math.Exp(lnW[i])
+			}
+			if it+1 >= stabSS {
+				// The next evaluation brings the derivatives for Newton.
+				newton = true
+				tmAcc = math.Inf(1)
+			}
+			continue
+		}
+		tmAcc = tm
+		step = 1
+		if !ws.trialNewtonStep(sw) {
+			newton = false
+			for _, i := range ws.act {
+				lnW[i] -= ws.lnWn[i]
+				W[i] = math.Exp(lnW[i])
+			}
+		}
+	}
+	if math.IsInf(bestTPD, 1) {
+		return 0, false, nil
+	}
+	return bestTPD, ok, nil
+}
+
+// dist is Σ_i (ln W_i − r_i − ln x_i)² over the present components: the
+// squared distance of the next successive-substitution iterate from x.
+func (ws *Workspace) dist(lnW, r, lnx []float64) float64 {
+	s := 0.0
+	for _, i := range ws.act {
+		d := lnW[i] - r[i] - lnx[i]
+		s += d * d
+	}
+	return s
+}
+
+// trialNewtonStep takes a Newton step on tm in α_i = 2√W_i:
+//
+//	g_i = √W_i (ln W_i + ln φ_i − d_i),
+//	H_ij = δ_ij + √(W_i W_j)·DN_ij/ΣW,
+//
+// (the term ½δ_ij(ln W_i + ln φ_i − d_i), zero at the solution, is left
+// out as Michelsen & Mollerup 2007 recommend). ws.lnWn holds the residuals
+// and ws.tf the derivatives at the current W.
+func (ws *Workspace) trialNewtonStep(sw float64) bool {
+	na := len(ws.act)
+	h, g := ws.H[:na*na], ws.g[:na]
+	dn := ws.tf.DN
+	n := ws.n
+	for a, i := range ws.act {
+		si := math.Sqrt(ws.W[i])
+		g[a] = si * ws.lnWn[i]
+		for b, j := range ws.act {
+			v := si * math.Sqrt(ws.W[j]) * dn[i*n+j] / sw
+			if a == b {
+				v++
+			}
+			h[a*na+b] = v
+		}
+	}
+	if !solveSPD(h, na, g, ws.dx[:na], ws.L[:na*na], ws.sc[:na]) {
+		return false
+	}
+	for a, i := range ws.act {
+		ws.Wp[i] = 2 * math.Sqrt(ws.W[i])
+		ws.dir[i] = ws.dx[a]
+	}
+	ws.alphaStep(1)
+	return true
+}
+
+// alphaStep sets α = α_prev + t·dir and W = α²/4, keeping α positive.
+func (ws *Workspace) alphaStep(t float64) {
+	for _, i := range ws.act {
+		a := ws.Wp[i] + t*ws.dir[i]
+		if a <= 0 {
+			a = 0.1 * ws.Wp[i]
+		}
+		ws.W[i] = math.Max(a*a/4, tiny)
+		ws.lnW[i] = math.Log(ws.W[i])
+	}
+}

@@ -1,0 +1,180 @@
+package flash
+
+import (
+	"context"
+	"math"
+
+	"github.com/fugad/fugad/thermo/component"
+	"github.com/fugad/fugad/thermo/eos"
+)
+
+// maxTrials bounds the trial phases of one stability test: two Wilson
+// trials and up to five pure-component-like trials.
+const maxTrials = 7
+
+// phaseState is one phase of the split being solved.
+type phaseState struct {
+	x     []float64 // mole fractions
+	nm    []float64 // moles per mole of feed, β·x
+	nm0   []float64 // saved moles (line search)
+	lnf   []float64 // ln x_i + ln φ_i
+	lnx   []float64 // ln x_i
+	f     *eos.Fugacity
+	beta  float64
+	hasDN bool
+}
+
+// trialSpec says how a stability trial starts.
+type trialSpec struct {
+	kind int // trialVapour, trialLiquid or trialPure
+	comp int // component of a pure-component-like trial
+}
+
+const (
+	trialVapour = iota
+	trialLiquid
+	trialPure
+)
+
+// Workspace holds the scratch memory of one goroutine's flashes of one
+// Mixture. It is not safe for concurrent use; make one per goroutine and
+// reuse it: a flash then allocates nothing.
+type Workspace struct {
+	mx  *eos.Mixture
+	ews *eos.Workspace
+	n   int
+
+	// call state
+	ctx    context.Context
+	set    settings
+	rep    *Report
+	T, P   float64
+	z      []float64
+	lnz    []float64
+	act    []int // components with z_i > 0
+	lnKw   []float64
+	water  int // index of water, −1 when absent
+	family []component.Family
+	mw     []float64
+
+	ph [MaxPhases + 1]phaseState
+	m  int
+
+	// stability
+	trials  []trialSpec
+	d       []float64
+	W       []float64
+	lnW     []float64
+	lnWn    []float64
+	w       []float64
+	Wp      []float64
+	dir     []float64
+	tf      *eos.Fugacity
+	trialW  [maxTrials][]float64
+	trialT  [maxTrials]float64
+	trialOK [maxTrials]bool
+	nTrial  int
+
+	// two-phase successive substitution
+	lnK, lnKp, dK1, dK2, K []float64
+
+	// linear algebra, sized for (MaxPhases−1)·n unknowns
+	H, L, g, dx, sc []float64
+	vi, vk          []int // Newton unknown p is n of component vi[p] in phase vk[p]
+
+	// multiphase split
+	e  []float64 // e_ik, n×(MaxPhases+1)
+	Ei []float64
+	qb [MaxPhases + 1]float64
+
+	// warm-start copy
+	warmX    [MaxPhases][]float64
+	warmBeta [MaxPhases]float64
+}
+
+// NewWorkspace returns a flash workspace for mx.
+func NewWorkspace(mx *eos.Mixture) *Workspace {
+	n := mx.N()
+	v := func() []float64 { return make([]float64, n) }
+	ws := &Workspace{mx: mx, ews: mx.NewWorkspace(), n: n,
+		z: v(), lnz: v(), lnKw: v(), act: make([]int, 0, n),
+		family: make([]component.Family, n), mw: v(), water: -1,
+		trials: make([]trialSpec, 0, maxTrials),
+		d:      v(), W: v(), lnW: v(), lnWn: v(), w: v(), Wp: v(), dir: v(), tf: mx.NewFugacity(),
+		lnK: v(), lnKp: v(), dK1: v(), dK2: v(), K: v(),
+		e: make([]float64, n*(MaxPhases+1)), Ei: v(),
+	}
+	dim := (MaxPhases - 1) * n
+	ws.H = make([]float64, dim*dim)
+	ws.L = make([]float64, dim*dim)
+	ws.g = make([]float64, dim)
+	ws.dx = make([]float64, dim)
+	ws.sc = make([]float64, dim)
+	ws.vi = make([]int, dim)
+	ws.vk = make([]int, dim)
+	for k := range ws.ph {
+		ws.ph[k] = phaseState{x: v(), nm: v(), nm0: v(), lnf: v(), lnx: v(), f: mx.NewFugacity()}
+	}
+	for t := range ws.trialW {
+		ws.trialW[t] = v()
+	}
+	for k := range ws.warmX {
+		ws.warmX[k] = v()
+	}
+	for i := range n {
+		c := mx.Component(i)
+		ws.family[i] = c.Family
+		ws.mw[i] = c.MolarMass
+		if c.Family == component.FamilyWater && ws.water < 0 {
+			ws.water = i
+		}
+	}
+	return ws
+}
+
+// Mixture returns the mixture the workspace was made for.
+func (ws *Workspace) Mixture() *eos.Mixture { return ws.mx }
+
+// eval evaluates ln φ of composition x on the root of lowest Gibbs energy.
+func (ws *Workspace) eval(x []float64, want eos.Want, f *eos.Fugacity) error {
+	ws.rep.LnPhiEvaluations++
+	return ws.mx.Fugacity(ws.ews, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
+}
+
+// evalPhase evaluates phase k and its ln f.
+func (ws *Workspace) evalPhase(k int, want eos.Want) error {
+	p := &ws.ph[k]
+	if err := ws.eval(p.x, want, p.f); err != nil {
+		return err
+	}
+	p.hasDN = want&eos.WantN != 0
+	for _, i := range ws.act {
+		p.lnx[i] = safeLog(p.x[i])
+		p.lnf[i] = p.lnx[i] + p.f.LnPhi[i]
+	}
+	return nil
+}
+
+// stop polls the context and the cancel hook.
+func (ws *Workspace) stop() error {
+	if ws.ctx != nil {
+		if err := ws.ctx.Err(); err != nil {
+			return &canceledError{err: err}
+		}
+	}
+	if ws.set.cancel != nil && ws.set.cancel() {
+		return ErrStopped
+	}
+	return nil
+}
+
+// tiny is the floor of mole fractions inside logarithms: a component with
+// z_i > 0 that underflows in one phase keeps a finite ln x.
+const tiny = 1e-300
+
+func safeLog(x float64) float64 {
+	if x < tiny {
+		return math.Log(tiny)
+	}
+	return math.Log(x)
+}
