@@ -1,0 +1,289 @@
+package stateflash
+
+import (
+	"context"
+	"math"
+
+	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/flash"
+)
+
+// PH finds the equilibrium state of feed z (mole fractions or mole
+// numbers) at pressure P (Pa) with molar enthalpy H (J/mol, on the
+// reference state of package eos), with up to three phases, writing it
+// into res (made by NewResult for the same mixture). See the package
+// documentation for the method. warm may be nil or the Estimate of a
+// nearby result.
+//
+// Errors: *InputError (or *flash.InputError) for bad arguments;
+// *RangeError (ErrOutOfRange) when H is not reached between Options.Tmin
+// and Options.Tmax; *ConvergenceError (ErrNotConverged) when the outer or
+// an inner iteration fails; a wrapped ctx.Err() or flash.ErrStopped on
+// cancellation, checked in every outer iteration. It allocates nothing.
+func (ws *Workspace) PH(ctx context.Context, P, H float64, z []float64, opts Options, warm *Estimate, res *Result) error {
+	return ws.pressureSpec(ctx, SpecPH, P, H, z, &opts, warm, res)
+}
+
+// PS is PH with the molar entropy S (J/(mol·K)) specified instead of the
+// enthalpy; (∂S/∂T)_P = C_p,total/T replaces (∂H/∂T)_P = C_p,total.
+// Errors as for PH.
+func (ws *Workspace) PS(ctx context.Context, P, S float64, z []float64, opts Options, warm *Estimate, res *Result) error {
+	return ws.pressureSpec(ctx, SpecPS, P, S, z, &opts, warm, res)
+}
+
+// outer holds the specification of the current call.
+type outer struct {
+	T, P  float64 // the fixed one of the pair (P for P–H/P–S, T for T–V)
+	val   float64 // H, S or V (for U–V: U)
+	val2  float64 // V for U–V
+	last  float64 // state function of the last evaluation (for range errors)
+	resid float64 // last specification residual, measure of Options.Tolerance
+}
+
+func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64, z []float64, opts *Options, warm *Estimate, res *Result) error {
+	if err := ws.begin(ctx, spec, opts, z, warm, res); err != nil {
+		return err
+	}
+	if !finite(P) || P <= 0 {
+		return &InputError{Field: "P", Value: P, Reason: "pressure must be a finite positive number of pascal"}
+	}
+	name := "H"
+	if spec == SpecPS {
+		name = "S"
+	}
+	if !finite(val) {
+		return &InputError{Field: name, Value: val, Reason: "must be a finite number"}
+	}
+	ws.o = outer{P: P, val: val, resid: math.Inf(1)}
+	if ws.pure >= 0 {
+		done, err := ws.purePressure(res)
+		if done || err != nil {
+			return err
+		}
+	}
+	var fwarm *flash.Estimate
+	T := 300.0
+	if warm != nil {
+		if warm.T > 0 {
+			T = warm.T
+		}
+		if warm.Flash.Phases > 0 {
+			fwarm = &warm.Flash
+		}
+	}
+	T = math.Min(math.Max(T, ws.set.tmin), ws.set.tmax)
+	if fwarm == nil || fwarm.Phases <= 1 {
+		// Single-phase solve, then one flash to confirm it.
+		T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax)
+	}
+	ws.rep.OuterIterations++
+	if err := ws.tp(T, P, fwarm); err != nil {
+		return ws.innerErr(err, T, P)
+	}
+	if len(ws.fres.Phases) == 1 {
+		if r := ws.pressureResid(); r <= ws.set.tol {
+			ws.finish(res, RouteSinglePhase, r)
+			return nil
+		}
+	}
+	if _, err := ws.solve1D(T, ws.set.tmin, ws.set.tmax, true); err != nil {
+		return err
+	}
+	ws.finish(res, RouteNested, ws.o.resid)
+	return nil
+}
+
+// pressureResid is the specification residual of the last inner flash
+// for P–H and P–S.
+func (ws *Workspace) pressureResid() float64 {
+	o := &ws.fres.Overall
+	if ws.spec == SpecPS {
+		return math.Abs(o.S-ws.o.val) / eos.R
+	}
+	return math.Abs(o.H-ws.o.val) / (eos.R * ws.fres.T)
+}
+
+// singlePhaseT solves the single-phase specification at fixed P on the
+// root of lowest Gibbs energy,
+//
+//	h(T, P) = H  or  s(T, P) = S,
+//
+// by Newton's method with Cp (or Cp/T) inside the bracket [lo, hi],
+// bisecting when a step leaves it. It returns the last T and whether the
+// specification was met.
+func (ws *Workspace) singlePhaseT(T, lo, hi float64) (float64, bool) {
+	for range 60 {
+		pr, err := ws.mx.Properties(ws.ews, T, ws.o.P, ws.z, eos.RootMinGibbs)
+		ws.rep.LnPhiEvaluations++
+		if err != nil {
+			return T, false
+		}
+		F, dF, scale := pr.H-ws.o.val, pr.Cp, eos.R*T
+		if ws.spec == SpecPS {
+			F, dF, scale = pr.S-ws.o.val, pr.Cp/T, eos.R
+		}
+		if math.Abs(F) <= ws.set.tol*scale {
+			return T, true
+		}
+		if F < 0 {
+			lo = T
+		} else {
+			hi = T
+		}
+		next := math.NaN()
+		if dF > 0 && finite(dF) {
+			step := -F / dF
+			step = math.Max(-0.25*T, math.Min(0.25*T, step))
+			next = T + step
+		}
+		if !(next > lo && next < hi) {
+			next = 0.5 * (lo + hi)
+		}
+		if hi-lo <= 1e-13*T {
+			return T, false
+		}
+		T = next
+	}
+	return T, false
+}
+
+// evalOuter runs the inner flash at the outer variable y (T for P–H and
+// P–S, ln P for T–V) unless flashed, and returns the specification
+// function F (increasing in y), its derivative from the sensitivities
+// (NaN when they are not available) and the residual scale.
+func (ws *Workspace) evalOuter(y float64, flashed bool) (F, dF, scale float64, err error) {
+	T, P := y, ws.o.P
+	if ws.spec == SpecTV {
+		T, P = ws.o.T, math.Exp(y)
+	}
+	if !flashed {
+		if err := ws.tp(T, P, nil); err != nil {
+			return 0, 0, 0, ws.innerErr(err, T, P)
+		}
+	}
+	ok, err := ws.sensitivities()
+	if err != nil {
+		return 0, 0, 0, err
+	}
+	s := &ws.sens
+	o := &ws.fres.Overall
+	switch ws.spec {
+	case SpecPH:
+		ws.o.last = o.H
+		F, dF, scale = o.H-ws.o.val, s.HT, eos.R*T
+	case SpecPS:
+		ws.o.last = o.S
+		F, dF, scale = o.S-ws.o.val, s.HT/T, eos.R
+	default: // T–V: V decreases with P, so ln V_spec − ln V increases with ln P.
+		ws.o.last = o.MolarVolume
+		F, dF, scale = math.Log(ws.o.val/o.MolarVolume), -P*s.VP/o.MolarVolume, 1
+	}
+	if !ok {
+		dF = math.NaN()
+	}
+	return F, dF, scale, nil
+}
+
+// solve1D solves F(y) = 0 for the increasing specification function of
+// evalOuter inside the bracket [lo, hi] by safeguarded Newton: a Newton
+// step with the sensitivity derivative, limited in size; when it leaves
+// the bracket known so far, or |F| fails to halve twice running, a secant
+// step between the bracket ends (kept off them) or a bisection. A
+// derivative that is huge or discontinuous — the total heat capacity of a
+// narrow-boiling mixture — then costs bisection steps, never a failure.
+// flashed says the inner result already holds the state at y.
+func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
+	loB, hiB := lo, hi
+	flo, fhi := math.NaN(), math.NaN()
+	prev := math.Inf(1)
+	slow := 0
+	for it := 0; it < ws.set.maxIt; it++ {
+		if err := ws.stop(); err != nil {
+			return y, err
+		}
+		if it > 0 {
+			ws.rep.OuterIterations++
+		}
+		F, dF, scale, err := ws.evalOuter(y, flashed && it == 0)
+		if err != nil {
+			return y, err
+		}
+		ws.o.resid = math.Abs(F) / scale
+		if ws.o.resid <= ws.set.tol {
+			return y, nil
+		}
+		if F < 0 {
+			lo, flo = y, F
+			if y >= hiB {
+				return y, ws.rangeErr(y)
+			}
+		} else {
+			hi, fhi = y, F
+			if y <= loB {
+				return y, ws.rangeErr(y)
+			}
+		}
+		if hi-lo <= 1e-14*math.Max(math.Abs(lo), math.Abs(hi)) {
+			if ws.o.resid <= 1e3*ws.set.tol {
+				return y, nil
+			}
+			return y, ws.convErr("outer iteration (bracket collapsed: the state function jumps here)", it+1, nil)
+		}
+		maxStep := 0.25 * y
+		if ws.spec == SpecTV {
+			maxStep = 2
+		}
+		next := math.NaN()
+		if finite(dF) && dF > 0 {
+			next = y - math.Max(-maxStep, math.Min(maxStep, F/dF))
+		}
+		if math.Abs(F) > 0.5*prev {
+			slow++
+		} else {
+			slow = 0
+		}
+		prev = math.Abs(F)
+		if !(next > lo && next < hi) || slow >= 2 {
+			switch {
+			case !math.IsNaN(flo) && !math.IsNaN(fhi):
+				w := hi - lo
+				next = lo - flo*w/(fhi-flo)
+				if slow >= 2 || !(next > lo+0.05*w && next < hi-0.05*w) {
+					next = 0.5 * (lo + hi)
+				}
+				slow = 0
+			case math.IsNaN(fhi):
+				next = math.Min(y+maxStep, hiB)
+			default:
+				next = math.Max(y-maxStep, loB)
+			}
+		}
+		y = next
+	}
+	return y, ws.convErr("outer iteration", ws.set.maxIt, nil)
+}
+
+// rangeErr reports that the specification is not reached at bound y.
+func (ws *Workspace) rangeErr(y float64) error {
+	e := &RangeError{Spec: ws.spec, Variable: "T", Bound: y, Want: ws.o.val, Got: ws.o.last}
+	if ws.spec == SpecTV {
+		e.Variable, e.Bound = "P", math.Exp(y)
+	}
+	return e
+}
+
+// convErr builds the convergence error of the current estimate.
+func (ws *Workspace) convErr(stage string, it int, cause error) error {
+	return &ConvergenceError{Spec: ws.spec, Stage: stage, Iterations: it,
+		T: ws.fres.T, P: ws.fres.P, Residual: ws.o.resid, Phases: len(ws.fres.Phases), Err: cause}
+}
+
+// innerErr wraps a failed inner flash; input and cancellation errors pass
+// through unchanged.
+func (ws *Workspace) innerErr(err error, T, P float64) error {
+	if solverFailure(err) {
+		return &ConvergenceError{Spec: ws.spec, Stage: "inner T–P flash", Iterations: ws.rep.OuterIterations,
+			T: T, P: P, Residual: ws.o.resid, Phases: len(ws.fres.Phases), Err: err}
+	}
+	return err
+}
