@@ -1,0 +1,130 @@
+package envelope
+
+import "math"
+
+// luFactor factors the row-major m×m matrix a in place into L·U with
+// partial pivoting (Golub & Van Loan, Matrix Computations, alg. 3.4.1).
+// It reports false when a pivot is zero or not finite.
+func luFactor(a []float64, m int, piv []int) bool {
+	for k := range m {
+		p, best := k, math.Abs(a[k*m+k])
+		for i := k + 1; i < m; i++ {
+			if v := math.Abs(a[i*m+k]); v > best {
+				p, best = i, v
+			}
+		}
+		if !(best > 0) || math.IsInf(best, 0) {
+			return false
+		}
+		piv[k] = p
+		if p != k {
+			rk, rp := a[k*m:k*m+m], a[p*m:p*m+m]
+			for j := range m {
+				rk[j], rp[j] = rp[j], rk[j]
+			}
+		}
+		inv := 1 / a[k*m+k]
+		for i := k + 1; i < m; i++ {
+			l := a[i*m+k] * inv
+			a[i*m+k] = l
+			if l == 0 {
+				continue
+			}
+			ri, rk := a[i*m:i*m+m], a[k*m:k*m+m]
+			for j := k + 1; j < m; j++ {
+				ri[j] -= l * rk[j]
+			}
+		}
+	}
+	return true
+}
+
+// luSolve solves (L·U)x = b for the factors of luFactor, overwriting b.
+func luSolve(a []float64, m int, piv []int, b []float64) {
+	for k := range m {
+		if p := piv[k]; p != k {
+			b[k], b[p] = b[p], b[k]
+		}
+	}
+	for i := range m {
+		s := b[i]
+		row := a[i*m : i*m+i]
+		for j, v := range row {
+			s -= v * b[j]
+		}
+		b[i] = s
+	}
+	for i := m - 1; i >= 0; i-- {
+		s := b[i]
+		for j := i + 1; j < m; j++ {
+			s -= a[i*m+j] * b[j]
+		}
+		b[i] = s / a[i*m+i]
+	}
+}
+
+// symEigenMin returns the smallest eigenvalue of the symmetric row-major
+// n×n matrix a and writes its unit eigenvector into u. It uses the cyclic
+// Jacobi method (Golub & Van Loan, alg. 8.5.3), which is unconditionally
+// convergent for symmetric matrices; a is overwritten and v (n×n) is
+// scratch.
+func symEigenMin(a []float64, n int, v, u []float64) float64 {
+	for i := range n {
+		for j := range n {
+			v[i*n+j] = 0
+		}
+		v[i*n+i] = 1
+	}
+	for sweep := 0; sweep < 60; sweep++ {
+		off, diag := 0.0, 0.0
+		for i := range n {
+			diag += a[i*n+i] * a[i*n+i]
+			for j := i + 1; j < n; j++ {
+				off += a[i*n+j] * a[i*n+j]
+			}
+		}
+		if off <= 1e-30*diag || off == 0 {
+			break
+		}
+		for p := range n {
+			for q := p + 1; q < n; q++ {
+				apq := a[p*n+q]
+				if apq == 0 {
+					continue
+				}
+				theta := (a[q*n+q] - a[p*n+p]) / (2 * apq)
+				t := 1 / (math.Abs(theta) + math.Sqrt(theta*theta+1))
+				if theta < 0 {
+					t = -t
+				}
+				c := 1 / math.Sqrt(t*t+1)
+				s := t * c
+				for k := range n {
+					akp, akq := a[k*n+p], a[k*n+q]
+					a[k*n+p] = c*akp - s*akq
+					a[k*n+q] = s*akp + c*akq
+				}
+				for k := range n {
+					apk, aqk := a[p*n+k], a[q*n+k]
+					a[p*n+k] = c*apk - s*aqk
+					a[q*n+k] = s*apk + c*aqk
+				}
+				for k := range n {
+					vkp, vkq := v[k*n+p], v[k*n+q]
+					v[k*n+p] = c*vkp - s*vkq
+					v[k*n+q] = s*vkp + c*vkq
+				}
+			}
+		}
+	}
+	imin := 0
+	for i := 1; i < n; i++ {
+		if a[i*n+i] < a[imin*n+imin] {
+			imin = i
+		}
+	}
+	for k := range n {
+		u[k] = v[k*n+imin]
+	}
+	return a[imin*n+imin]
+}
