@@ -73,11 +73,21 @@ func checkUserID(id string) error {
 	return nil
 }
 
+// maxCpCoefficient bounds the magnitude of each caller-supplied Cp°/R
+// coefficient. Real coefficients are many orders of magnitude smaller; the
+// bound keeps Cp, H = ∫Cp dT and S = ∫Cp/T dT finite in float64 at every
+// temperature an equation of state evaluates (a4·T⁵ with T ≤ 10⁶ K stays
+// below 10¹³⁰), where merely finite coefficients such as 10³⁰⁵ overflow.
+const maxCpCoefficient = 1e100
+
 // checkCp validates caller-supplied coefficients.
 func checkCp(cp *IdealGasCp) error {
 	for i, a := range cp.A {
 		if !finite(a) {
 			return &InputError{Field: fmt.Sprintf("Cp.A[%d]", i), Value: a, Reason: "must be a finite number"}
+		}
+		if math.Abs(a) > maxCpCoefficient {
+			return &InputError{Field: fmt.Sprintf("Cp.A[%d]", i), Value: a, Reason: fmt.Sprintf("magnitude must not exceed %g", maxCpCoefficient)}
 		}
 	}
 	if err := inRange("Cp.Tmin", cp.Tmin, 0, 10000, true, "lower temperature bound (K)"); err != nil {

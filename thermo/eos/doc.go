@@ -20,6 +20,10 @@
 //	a = Σ_ij x_i x_j (1 − k_ij(T)) √(a_i a_j),  b = Σ_i x_i b_i,
 //	k_ij(T) = k0_ij + k1_ij·T.
 //
+// A fluid with water also carries a second set of interaction parameters
+// for aqueous phases (Peng & Robinson 1980; Søreide & Whitson 1992),
+// reached through Mixture.Aqueous; see AqueousKijMode.
+//
 // A Mixture is compiled once per fluid and is safe for concurrent use; each
 // goroutine evaluates states through its own Workspace. Fugacity,
 // Properties and the T–V forms allocate nothing.

@@ -109,6 +109,26 @@ func (mx *Mixture) Fugacity(ws *Workspace, T, P float64, x []float64, root RootC
 	return nil
 }
 
+// Temperatures and pressures an evaluation accepts. They lie far outside
+// any state an equation of state is meant for, and far inside the range
+// where the kernel's products (RT², a·P/(RT)², 1/v²) stay finite in
+// float64 arithmetic: beyond about 1e60 K, 1e100 Pa or below about
+// 1e-45 K, 1e-150 Pa they overflow or underflow and ln φ comes out NaN or
+// ±Inf.
+const (
+	minT, maxT = 1e-3, 1e6  // K
+	minP, maxP = 1e-9, 1e13 // Pa
+)
+
+// inDomain returns an *InputError unless lo ≤ v ≤ hi; v must already be
+// known to be finite and positive.
+func inDomain(field string, v, lo, hi float64, unit string) error {
+	if v < lo || v > hi {
+		return &InputError{Field: field, Value: v, Reason: fmt.Sprintf("must lie within [%g, %g] %s", lo, hi, unit)}
+	}
+	return nil
+}
+
 // checkTPX validates a state. It is cheap next to the evaluation.
 func (mx *Mixture) checkTPX(ws *Workspace, T, P float64, x []float64) error {
 	if ws == nil || ws.mx != mx {
@@ -117,7 +137,13 @@ func (mx *Mixture) checkTPX(ws *Workspace, T, P float64, x []float64) error {
 	if err := positive("T", T); err != nil {
 		return err
 	}
+	if err := inDomain("T", T, minT, maxT, "K"); err != nil {
+		return err
+	}
 	if err := positive("P", P); err != nil {
+		return err
+	}
+	if err := inDomain("P", P, minP, maxP, "Pa"); err != nil {
 		return err
 	}
 	return mx.checkX(x)
@@ -221,7 +247,7 @@ func (mx *Mixture) solveZ(ws *Workspace, T, P float64, root RootChoice) {
 		case RootLiquid:
 			z, st.branch = zl, BranchLiquid
 		default:
-			if gres(zl, A, B, d1, d2) < gres(zv, A, B, d1, d2) {
+			if gresDiff(zl, zv, A, B, d1, d2) < 0 {
 				z, st.branch = zl, BranchLiquid
 			} else {
 				z, st.branch = zv, BranchVapour
@@ -232,11 +258,16 @@ func (mx *Mixture) solveZ(ws *Workspace, T, P float64, root RootChoice) {
 	st.V = z * rt / P
 }
 
-// gres is G^r/RT of a root, used to pick the stable one:
+// gresDiff is the difference of G^r/RT between the liquid-like root zl and
+// the vapour-like root zv, used to pick the stable one; with
+// G^r/RT = Z − 1 − ln(Z − B) − A/(B(δ1 − δ2))·ln((Z + δ1B)/(Z + δ2B)) it is,
+// with two logarithms instead of four,
 //
-//	Z − 1 − ln(Z − B) − A/(B(δ1 − δ2))·ln((Z + δ1B)/(Z + δ2B)).
-func gres(z, A, B, d1, d2 float64) float64 {
-	return z - 1 - math.Log(z-B) - A/(B*(d1-d2))*math.Log((z+d1*B)/(z+d2*B))
+//	Zl − Zv − ln((Zl − B)/(Zv − B))
+//	  − A/(B(δ1 − δ2))·ln((Zl + δ1B)(Zv + δ2B)/((Zl + δ2B)(Zv + δ1B))).
+func gresDiff(zl, zv, A, B, d1, d2 float64) float64 {
+	return zl - zv - math.Log((zl-B)/(zv-B)) -
+		A/(B*(d1-d2))*math.Log((zl+d1*B)*(zv+d2*B)/((zl+d2*B)*(zv+d1*B)))
 }
 
 // residual evaluates F = A^r/(nRT) and the volume and temperature
@@ -329,15 +360,23 @@ func (mx *Mixture) lnPhi(ws *Workspace, want Want, out *Fugacity) {
 		ws.pn[i] = -rt*FVi + rt/V
 	}
 	if want&WantN != 0 {
+		// n·F_ij + 1 = e_i + e_j + b_i c_j + b_j c_i + 2F_D a_ij with
+		// e_i = F_nB b_i + ½ and c_i = F_BD D_i + ½F_BB b_i.
+		e, c := ws.dne[:n], ws.dnc[:n]
+		b, pn := mx.b[:n], ws.pn[:n]
 		for i := range n {
-			bi, Di := mx.b[i], ws.di[i]
+			e[i] = FnB*b[i] + 0.5
+			c[i] = FBD*ws.di[i] + 0.5*FBB*b[i]
+		}
+		fd2 := 2 * FD
+		inv := 1 / (rt * dPdV)
+		for i := range n {
+			ei, bi, ci := e[i], b[i], c[i]
+			qi := pn[i] * inv
 			row := out.DN[i*n : i*n+n]
 			arow := ws.aij[i*n : i*n+n]
-			pni := ws.pn[i] / (rt * dPdV)
 			for j := i; j < n; j++ {
-				bj, Dj := mx.b[j], ws.di[j]
-				Fij := FnB*(bi+bj) + FBD*(bi*Dj+bj*Di) + FBB*bi*bj + FD*2*arow[j]
-				v := Fij + 1 + pni*ws.pn[j]
+				v := ei + e[j] + bi*c[j] + b[j]*ci + fd2*arow[j] + qi*pn[j]
 				row[j] = v
 				out.DN[j*n+i] = v
 			}

@@ -32,6 +32,14 @@ type Options struct {
 	// shifts every ln φ_i by the same −c_i·P/RT in all phases, so it never
 	// changes an equilibrium result.
 	VolumeTranslation bool
+	// AqueousKij selects the interaction parameters of aqueous phases
+	// (water mole fraction above AqueousWaterFraction), evaluated through
+	// Mixture.Aqueous. The zero value, AqueousKijDefault, compiles the
+	// Søreide & Whitson (1992) set when the fluid contains water; see
+	// AqueousKijMode for the formulas and the consequences. Kij overrides
+	// apply to the non-aqueous set, and to the aqueous set only for pairs
+	// the aqueous correlations do not cover.
+	AqueousKij AqueousKijMode
 }
 
 // Mixture is a compiled fluid: a model and a list of components with
@@ -50,11 +58,16 @@ type Mixture struct {
 	sqac   []float64 // √ac
 	c      []float64 // Péneloux shift, m³/mol (zero when off)
 	mw     []float64 // kg/mol
+	lnPc   []float64 // ln Pc (Pa), for Wilson's K-values
 	kij0   []float64 // n×n, row-major
 	kij1   []float64 // n×n, 1/K
 	hasK1  bool
 	shift  bool
 	kijSrc []string // n×n source per pair ("" when zero by default)
+
+	kx      []kijTerm // pairs with a general k(T), applied after kij0, kij1
+	aq      *Mixture  // aqueous view (nil without an aqueous set)
+	aqueous bool      // this is the aqueous view
 }
 
 // NewMixture compiles a fluid. comps must be non-empty with valid
@@ -72,7 +85,7 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 		comps: append([]component.Component(nil), comps...),
 		ac:    make([]float64, n), b: make([]float64, n), m: make([]float64, n),
 		tc: make([]float64, n), sqac: make([]float64, n), c: make([]float64, n),
-		mw:   make([]float64, n),
+		mw: make([]float64, n), lnPc: make([]float64, n),
 		kij0: make([]float64, n*n), kij1: make([]float64, n*n), kijSrc: make([]string, n*n),
 		shift: opts.VolumeTranslation,
 	}
@@ -98,6 +111,7 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 		mx.m[i] = mx.p.mOf(c.Omega)
 		mx.tc[i] = c.Tc
 		mx.mw[i] = c.MolarMass
+		mx.lnPc[i] = math.Log(c.Pc)
 		if opts.VolumeTranslation {
 			mx.c[i] = peneloux(model, c)
 		}
@@ -129,6 +143,9 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 			return nil, &InputError{Field: f("k1"), Value: o.K1, Reason: "must be finite with |k1| ≤ 0.01 1/K"}
 		}
 		mx.setKij(o.I, o.J, o.K0, o.K1, "override")
+	}
+	if err := mx.compileAqueous(opts.AqueousKij); err != nil {
+		return nil, err
 	}
 	return mx, nil
 }
@@ -178,6 +195,12 @@ func (mx *Mixture) Components() []component.Component {
 // of its value ("" when it is zero by default, "override" when set by the
 // caller).
 func (mx *Mixture) Kij(i, j int, T float64) (float64, string) {
+	for e := range mx.kx {
+		if t := &mx.kx[e]; (t.i == i && t.j == j) || (t.i == j && t.j == i) {
+			k, _, _ := t.at(T)
+			return k, t.source
+		}
+	}
 	k := i*mx.n + j
 	return mx.kij0[k] + mx.kij1[k]*T, mx.kijSrc[k]
 }
@@ -213,9 +236,10 @@ func (mx *Mixture) WilsonK(T, P float64, dst []float64) {
 
 // LnWilsonK writes ln of Wilson's K-value estimate into dst.
 func (mx *Mixture) LnWilsonK(T, P float64, dst []float64) {
+	lnP := math.Log(P)
 	for i := range mx.comps {
 		c := &mx.comps[i]
-		dst[i] = math.Log(c.Pc/P) + 5.373*(1+c.Omega)*(1-c.Tc/T)
+		dst[i] = mx.lnPc[i] - lnP + 5.373*(1+c.Omega)*(1-c.Tc/T)
 	}
 }
 

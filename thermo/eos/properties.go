@@ -97,6 +97,9 @@ func (mx *Mixture) checkTVX(ws *Workspace, T, v float64, x []float64) error {
 	if err := positive("T", T); err != nil {
 		return err
 	}
+	if err := inDomain("T", T, minT, maxT, "K"); err != nil {
+		return err
+	}
 	if err := positive("v", v); err != nil {
 		return err
 	}
@@ -121,16 +124,22 @@ func (mx *Mixture) props(ws *Workspace) Properties {
 	st := &ws.st
 	T, P, V := st.T, st.P, st.V
 	rt := R * T
+	if !ws.igOK || ws.igT != T {
+		for i := range mx.n {
+			c := &mx.comps[i]
+			ws.hig[i], ws.sig[i], ws.cpg[i] = c.HIG(T), c.SIG(T), c.CpIG(T)
+		}
+		ws.igOK, ws.igT = true, T
+	}
 	var hig, sig, cpig, mix float64
 	for i := range mx.n {
 		xi := ws.x[i]
 		if xi == 0 {
 			continue
 		}
-		c := &mx.comps[i]
-		hig += xi * c.HIG(T)
-		sig += xi * c.SIG(T)
-		cpig += xi * c.CpIG(T)
+		hig += xi * ws.hig[i]
+		sig += xi * ws.sig[i]
+		cpig += xi * ws.cpg[i]
 		mix += xi * math.Log(xi)
 	}
 	sig -= R * (mix + math.Log(P/component.PRef))

@@ -23,9 +23,13 @@ func cubicRoots(A, B, d1, d2 float64, roots *[3]float64) int {
 	var z [3]float64
 	nr := 0
 	if disc > 0 {
+		// Cardano with one cube root: u³ = −q/2 ± √disc, the sign taken
+		// from −q/2 so nothing cancels, and the second cube root −p/(3u)
+		// from u·v = −p/3.
 		sd := math.Sqrt(disc)
-		t := math.Cbrt(-q/2+sd) + math.Cbrt(-q/2-sd)
-		z[0] = t + shift
+		h := -q / 2
+		u := math.Cbrt(h + math.Copysign(sd, h))
+		z[0] = u - p/(3*u) + shift
 		nr = 1
 	} else {
 		r := 0.0

@@ -23,6 +23,14 @@ type Workspace struct {
 	di  []float64 // D_i = 2 Σ_j x_j a_ij
 	diT []float64 // ∂D_i/∂T
 	pn  []float64 // ∂P/∂n_i at T, V
+	dne []float64 // e_i and c_i of the composition derivatives (lnPhi)
+	dnc []float64
+
+	// Ideal-gas H, S (at PRef) and Cp of each component at igT, filled by
+	// the first property evaluation at a temperature.
+	igOK          bool
+	igT           float64
+	hig, sig, cpg []float64
 
 	st state
 }
@@ -60,6 +68,11 @@ func (mx *Mixture) NewWorkspace() *Workspace {
 		di:    make([]float64, n),
 		diT:   make([]float64, n),
 		pn:    make([]float64, n),
+		dne:   make([]float64, n),
+		dnc:   make([]float64, n),
+		hig:   make([]float64, n),
+		sig:   make([]float64, n),
+		cpg:   make([]float64, n),
 	}
 }
 
@@ -102,6 +115,25 @@ func (ws *Workspace) setT(T float64) {
 			ws.aijT[row+j], ws.aijT[j*n+i] = aT, aT
 			ws.aijTT[row+j], ws.aijTT[j*n+i] = aTT, aTT
 		}
+	}
+	// Pairs with a general k(T) (the aqueous set):
+	//	a = (1 − k)s,  a_T = (1 − k)s_T − k′s,  a_TT = (1 − k)s_TT − 2k′s_T − k″s.
+	for e := range mx.kx {
+		t := &mx.kx[e]
+		i, j := t.i, t.j
+		k, dk, d2k := t.at(T)
+		q := mx.sqac[i] * mx.sqac[j]
+		hi, hj := ws.h[i], ws.h[j]
+		s := q * hi * hj
+		sT := q * (ws.hT[i]*hj + hi*ws.hT[j])
+		sTT := q * (ws.hTT[i]*hj + 2*ws.hT[i]*ws.hT[j] + hi*ws.hTT[j])
+		omk := 1 - k
+		a := omk * s
+		aT := omk*sT - dk*s
+		aTT := omk*sTT - 2*dk*sT - d2k*s
+		ws.aij[i*n+j], ws.aij[j*n+i] = a, a
+		ws.aijT[i*n+j], ws.aijT[j*n+i] = aT, aT
+		ws.aijTT[i*n+j], ws.aijTT[j*n+i] = aTT, aTT
 	}
 	ws.t = T
 	ws.tValid = true

@@ -34,8 +34,11 @@
 //
 //   - when tpd < −TPDTolerance (the phase is unstable);
 //   - when Σ_i (ln W_i − ln x_i)² < 1e-4 for the reference x (trivial
-//     solution) or < 1e-3 for a phase already found (it is converging to
-//     that phase);
+//     solution) or < min(1e-2, 0.05·d_min) for a phase already found, d_min
+//     the smallest such distance between two found phases (it is
+//     converging to that phase; successive substitution decreases tm
+//     monotonically toward that phase's tm = 0, so nothing negative is
+//     passed on the way, and the bound tightens where phases are close);
 //   - when its residual max|ln W_i + ln φ_i − d_i| is below 1e-9;
 //   - when tm > 0.01 and the geometric extrapolation of the successive-
 //     substitution decrease of tm leaves it above three quarters of its
@@ -53,6 +56,10 @@
 // positive definite, a step cut that keeps every mole number positive, and
 // an Armijo line search on G. For each component the phase holding most of
 // it is the dependent one, so trace amounts keep full relative precision.
+// Near the solution (residual r with r² < 0.1·Tolerance, where the
+// quadratic convergence of Newton's method should finish in one step) the
+// step's end point is evaluated without ∂ln φ/∂n, which is computed only
+// if another step turns out to be needed.
 // The split is converged when
 //
 //	max_{i,α,β} |ln f_i,α − ln f_i,β| ≤ Options.Tolerance (default 1e-10).
@@ -75,6 +82,21 @@
 // or out-of-range split, non-convergence, instability) runs the cold path
 // instead, so an estimate changes the work done, never the answer.
 // Report.Path says "cold", "warm" or "warm-fallback".
+//
+// # Aqueous phases
+//
+// When the mixture carries an aqueous interaction-parameter set
+// (eos.Mixture.Aqueous; by default the Søreide & Whitson 1992 k_ij^AQ for
+// any fluid with water, see eos.AqueousKijMode), every composition with a
+// water mole fraction above eos.AqueousWaterFraction (0.5) — a phase of
+// the split, a stability trial, a tested phase — is evaluated with that
+// set, everything else with the mixture's own. The split minimises the
+// resulting piecewise Gibbs energy and a stability test compares every
+// trial on the set its composition selects, so an aqueous phase is tested
+// against its own model; results jump where a phase's water fraction
+// crosses 0.5 (only near the water–hydrocarbon critical region), and the
+// ln φ of an aqueous phase in a Result are those of the aqueous set, as
+// are its properties.
 //
 // # Phase labels
 //
@@ -104,10 +126,11 @@
 // # Limits
 //
 // Results are engineering estimates from published cubic models; near
-// critical points, for polar or associating mixtures (water, glycols,
-// methanol with hydrocarbons: hydrocarbon solubility in water is several
-// orders low with the default k_ij) and for very heavy fractions they can
-// be far from measured behaviour. They are not a basis for the design of
+// critical points, for polar or associating mixtures (glycols and methanol
+// with hydrocarbons; water with hydrocarbons and gases beyond the fitted
+// range of the aqueous k_ij, or with eos.AqueousKijNone, where hydrocarbon
+// solubility in water is orders of magnitude low) and for very heavy
+// fractions they can be far from measured behaviour. They are not a basis for the design of
 // relief, flare or pressure systems, which belongs to the applicable codes
 // and to licensed engineers.
 //
@@ -127,6 +150,9 @@
 //   - Crowe, A.M., Nishio, M.: Convergence promotion in the simulation of
 //     chemical processes — the general dominant eigenvalue method. AIChE J.
 //     21(3), 528–533 (1975).
+//   - Søreide, I., Whitson, C.H.: Peng–Robinson predictions for
+//     hydrocarbons, CO2, N2, and H2S with pure water and NaCl brine.
+//     Fluid Phase Equilib. 77, 217–240 (1992).
 //   - Wilson, G.M.: A modified Redlich–Kwong equation of state, application
 //     to general physical data calculations. AIChE 65th National Meeting,
 //     Cleveland, paper 15C (1969).

@@ -159,7 +159,7 @@ func (ws *Workspace) copyWarm(e *Estimate) (int, error) {
 				return 0, &InputError{Field: fmt.Sprintf("warm.LnK[%d]", i), Value: v, Reason: "must be finite"}
 			}
 			// Store K as the pair of compositions (K_i, 1) up to scale.
-			ws.warmX[0][i] = math.Exp(math.Max(-700, math.Min(700, v)))
+			ws.warmX[0][i] = math.Exp(max(-700, min(700, v)))
 			ws.warmX[1][i] = 1
 		}
 	default:
@@ -176,7 +176,7 @@ func (ws *Workspace) warmSolve(k int, e *Estimate) (bool, error) {
 	var err error
 	if k == 2 {
 		for _, i := range ws.act {
-			ws.lnK[i] = safeLog(ws.warmX[0][i]) - safeLog(ws.warmX[1][i])
+			ws.lnK[i] = math.Log(max(ws.warmX[0][i], tiny) / max(ws.warmX[1][i], tiny))
 		}
 		if ws.setTwoFromK(ws.warmBeta[0]) != rrRoot {
 			return false, nil
@@ -198,7 +198,7 @@ func (ws *Workspace) warmSolve(k int, e *Estimate) (bool, error) {
 			for _, i := range ws.act {
 				p.x[i] = ws.warmX[j][i] / s
 			}
-			p.beta = math.Max(ws.warmBeta[j], 1e-3)
+			p.beta = max(ws.warmBeta[j], 1e-3)
 			if err := ws.evalPhase(j, 0); err != nil {
 				return false, err
 			}
@@ -263,7 +263,7 @@ func (ws *Workspace) cold() error {
 			copy(ws.lnK, ws.lnKw)
 		default:
 			for _, i := range ws.act {
-				ws.lnK[i] = safeLog(ws.trialW[t][i]) - math.Log(ws.z[i])
+				ws.lnK[i] = safeLog(ws.trialW[t][i]) - ws.lnz[i]
 			}
 		}
 		if ws.setTwoFromK(0.5) != rrRoot {
@@ -379,7 +379,11 @@ func (ws *Workspace) finish(res *Result, path Path) error {
 	var o Overall
 	for k := range res.Phases {
 		ph := &res.Phases[k]
-		pr, err := ws.mx.Properties(ws.ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
+		mx, ews := ws.mx, ws.ews
+		if ws.aqueous(ph.X) {
+			mx, ews = ws.aq, ws.aws
+		}
+		pr, err := mx.Properties(ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
 		if err != nil {
 			return err
 		}
@@ -469,8 +473,15 @@ func (ws *Workspace) fill(res *Result, path Path, converged bool) {
 		for i := range res.LnK {
 			res.LnK[i] = last.LnPhi[i] - first.LnPhi[i]
 		}
+		// A converged split was evaluated at its compositions, so the
+		// phases' ln x are current.
+		lf, ll := ws.ph[order[0]].lnx, ws.ph[order[m-1]].lnx
 		for _, i := range ws.act {
-			res.LnK[i] = math.Log(first.X[i]) - math.Log(last.X[i])
+			if converged && first.X[i] > tiny && last.X[i] > tiny {
+				res.LnK[i] = lf[i] - ll[i]
+			} else {
+				res.LnK[i] = math.Log(first.X[i]) - math.Log(last.X[i])
+			}
 			if !finite(res.LnK[i]) {
 				res.LnK[i] = last.LnPhi[i] - first.LnPhi[i]
 			}

@@ -17,6 +17,17 @@ func fluid(t testing.TB, model eos.Model, ids ...string) *eos.Mixture {
 
 func fluidWith(t testing.TB, model eos.Model, extra []component.Component, ids ...string) *eos.Mixture {
 	t.Helper()
+	return fluidFull(t, model, eos.Options{}, extra, ids...)
+}
+
+// fluidOpts builds a mixture of library components with mixture options.
+func fluidOpts(t testing.TB, model eos.Model, opts eos.Options, ids ...string) *eos.Mixture {
+	t.Helper()
+	return fluidFull(t, model, opts, nil, ids...)
+}
+
+func fluidFull(t testing.TB, model eos.Model, opts eos.Options, extra []component.Component, ids ...string) *eos.Mixture {
+	t.Helper()
 	comps := make([]component.Component, 0, len(ids)+len(extra))
 	for _, id := range ids {
 		c, err := component.Lookup(id)
@@ -26,7 +37,7 @@ func fluidWith(t testing.TB, model eos.Model, extra []component.Component, ids .
 		comps = append(comps, c)
 	}
 	comps = append(comps, extra...)
-	mx, err := eos.NewMixture(model, comps, eos.Options{})
+	mx, err := eos.NewMixture(model, comps, opts)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -3,49 +3,55 @@ package flash
 import "math"
 
 // cholesky factors the symmetric positive-definite n×n matrix a (row-major)
-// in place into its lower triangle L with a = L·Lᵀ. It reports false, with a
-// partly overwritten a, when a pivot is not positive.
+// in place into its lower triangle L with a = L·Lᵀ, storing 1/L_jj on the
+// diagonal (cholSolve multiplies by it). It reports false, with a partly
+// overwritten a, when a pivot is not positive.
 func cholesky(a []float64, n int) bool {
 	for j := range n {
-		rj := a[j*n : j*n+n]
+		rj := a[j*n : j*n+j+1]
 		s := rj[j]
-		for k := range j {
-			s -= rj[k] * rj[k]
+		for _, v := range rj[:j] {
+			s -= v * v
 		}
 		if !(s > 0) {
 			return false
 		}
-		d := math.Sqrt(s)
-		rj[j] = d
+		inv := 1 / math.Sqrt(s)
+		rj[j] = inv
+		rjj := rj[:j]
 		for i := j + 1; i < n; i++ {
-			ri := a[i*n : i*n+n]
+			ri := a[i*n : i*n+j+1]
 			t := ri[j]
-			for k := range j {
-				t -= ri[k] * rj[k]
+			for k, v := range ri[:j] {
+				t -= v * rjj[k]
 			}
-			ri[j] = t / d
+			ri[j] = t * inv
 		}
 	}
 	return true
 }
 
 // cholSolve solves L·Lᵀ·x = b in place (b becomes x) with the factor from
-// cholesky.
+// cholesky. The back substitution runs by rows of L: once x_i is known it
+// is removed from every earlier equation, b_k −= L_ik·x_i.
 func cholSolve(l []float64, n int, b []float64) {
+	b = b[:n]
 	for i := range n {
-		ri := l[i*n : i*n+n]
+		ri := l[i*n : i*n+i+1]
 		s := b[i]
-		for k := range i {
-			s -= ri[k] * b[k]
+		for k, v := range ri[:i] {
+			s -= v * b[k]
 		}
-		b[i] = s / ri[i]
+		b[i] = s * ri[i]
 	}
 	for i := n - 1; i >= 0; i-- {
-		s := b[i]
-		for k := i + 1; k < n; k++ {
-			s -= l[k*n+i] * b[k]
+		ri := l[i*n : i*n+i+1]
+		xi := b[i] * ri[i]
+		b[i] = xi
+		bk := b[:i]
+		for k, v := range ri[:i] {
+			bk[k] -= v * xi
 		}
-		b[i] = s / l[i*n+i]
 	}
 }
 

@@ -40,13 +40,13 @@ func rachfordRice(z, K []float64, act []int, start float64) (float64, int, rrSta
 	kmax, kmin := 0.0, math.Inf(1)
 	for _, i := range act {
 		k := K[i]
-		kmax = math.Max(kmax, k)
-		kmin = math.Min(kmin, k)
+		kmax = max(kmax, k)
+		kmin = min(kmin, k)
 		switch {
 		case k > 1:
-			lo = math.Max(lo, (k*z[i]-1)/(k-1))
+			lo = max(lo, (k*z[i]-1)/(k-1))
 		case k < 1:
-			hi = math.Min(hi, (1-z[i])/(1-k))
+			hi = min(hi, (1-z[i])/(1-k))
 		}
 	}
 	if kmin >= 1 {
@@ -154,7 +154,7 @@ func multiphaseSplit(z, e, Ei []float64, act []int, m int, beta []float64) (int,
 			if beta[k] > 0 || g[k] < 0 {
 				free[nf] = k
 				nf++
-				gmax = math.Max(gmax, math.Abs(g[k]))
+				gmax = max(gmax, math.Abs(g[k]))
 			}
 		}
 		if gmax < 1e-13 {
@@ -179,7 +179,7 @@ func multiphaseSplit(z, e, Ei []float64, act []int, m int, beta []float64) (int,
 		for a := range nf {
 			k := free[a]
 			if dx[a] < 0 && beta[k]+dx[a] < 0 {
-				t = math.Min(t, -beta[k]/dx[a])
+				t = min(t, -beta[k]/dx[a])
 			}
 		}
 		var nb [MaxPhases + 1]float64

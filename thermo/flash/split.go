@@ -22,6 +22,9 @@ const (
 	ssMax        = 5     // SS steps after which Newton is tried regardless
 	demEvery     = 5     // dominant-eigenvalue extrapolation every demEvery SS steps
 	betaVanish   = 1e-12 // a phase with β below this is removed
+	// lazyDN: a Newton step from residual r is expected to converge when
+	// r² < lazyDN·tolerance (quadratic convergence with a modest constant).
+	lazyDN = 0.1
 )
 
 // residual returns max_{i,k} |ln f_ik − ln f_i0| over the present phases.
@@ -29,7 +32,7 @@ func (ws *Workspace) residual() float64 {
 	r := 0.0
 	for k := 1; k < ws.m; k++ {
 		for _, i := range ws.act {
-			r = math.Max(r, math.Abs(ws.ph[k].lnf[i]-ws.ph[0].lnf[i]))
+			r = max(r, math.Abs(ws.ph[k].lnf[i]-ws.ph[0].lnf[i]))
 		}
 	}
 	if math.IsNaN(r) {
@@ -78,7 +81,7 @@ func (ws *Workspace) setTwoFromK(start float64) rrStatus {
 	for _, i := range ws.act {
 		x := ws.z[i] / (1 + b*(ws.K[i]-1))
 		if st != rrRoot || !(x > 0) {
-			x = math.Max(0, math.Min(x, 1))
+			x = max(0, min(x, 1))
 			if st != rrRoot {
 				x = ws.z[i]
 			}
@@ -125,10 +128,11 @@ func (ws *Workspace) setMoles() {
 	ws.molesToX()
 }
 
-// syncK sets ws.lnK = ln(x_i0/x_i1) from the current two phases.
+// syncK sets ws.lnK = ln(x_i0/x_i1) from the current two phases (whose
+// ln x the last evaluation left).
 func (ws *Workspace) syncK() {
 	for _, i := range ws.act {
-		ws.lnK[i] = safeLog(ws.ph[0].x[i]) - safeLog(ws.ph[1].x[i])
+		ws.lnK[i] = ws.ph[0].lnx[i] - ws.ph[1].lnx[i]
 		ws.dK1[i], ws.dK2[i] = 0, 0
 	}
 }
@@ -182,7 +186,15 @@ func (ws *Workspace) solveSplit(newtonFirst, fresh bool) (splitStatus, error) {
 					return splitFail, err
 				}
 			}
-			ok, err := ws.newtonStep()
+			// Near the solution Newton converges quadratically: when the
+			// step is expected to reach the tolerance its end point is
+			// evaluated without the composition derivatives (they are
+			// added at the top of the loop should it fall short).
+			next := eos.WantN
+			if resid*resid < lazyDN*ws.set.tol {
+				next = 0
+			}
+			ok, err := ws.newtonStep(next)
 			if err != nil {
 				return splitFail, err
 			}
@@ -320,14 +332,14 @@ func (ws *Workspace) ssMulti(want eos.Want) error {
 	for _, i := range ws.act {
 		c := math.Inf(1)
 		for k := range m {
-			c = math.Min(c, ws.ph[k].f.LnPhi[i])
+			c = min(c, ws.ph[k].f.LnPhi[i])
 		}
 		for k := range m {
 			ws.e[i*st+k] = math.Exp(c - ws.ph[k].f.LnPhi[i])
 		}
 	}
 	for k := range m {
-		ws.qb[k] = math.Max(ws.ph[k].beta, 1e-6)
+		ws.qb[k] = max(ws.ph[k].beta, 1e-6)
 	}
 	it, _ := multiphaseSplit(ws.z, ws.e, ws.Ei, ws.act, m, ws.qb[:m])
 	ws.rep.RRIterations += it
@@ -372,8 +384,8 @@ func (ws *Workspace) ssMulti(want eos.Want) error {
 // predicted decrease is below round-off, the full step is taken. It
 // reports false when no step is accepted (the caller falls back to
 // successive substitution).
-func (ws *Workspace) newtonStep() (bool, error) {
-	m, n := ws.m, ws.n
+func (ws *Workspace) newtonStep(want eos.Want) (bool, error) {
+	m := ws.m
 	var dep [64]int8
 	depOf := func(i int) int {
 		if i < len(dep) {
@@ -399,29 +411,10 @@ func (ws *Workspace) newtonStep() (bool, error) {
 		}
 	}
 	h, g, dx := ws.H[:dim*dim], ws.g[:dim], ws.dx[:dim]
-	for p := range dim {
-		i, k := vi[p], vk[p]
-		ri := depOf(i)
-		g[p] = ws.ph[k].lnf[i] - ws.ph[ri].lnf[i]
-		for q := p; q < dim; q++ {
-			j, l := vi[q], vk[q]
-			rj := depOf(j)
-			v := 0.0
-			if k == l {
-				v += aterm(&ws.ph[k], i, j, n)
-			}
-			if k == rj {
-				v -= aterm(&ws.ph[k], i, j, n)
-			}
-			if l == ri {
-				v -= aterm(&ws.ph[l], i, j, n)
-			}
-			if ri == rj {
-				v += aterm(&ws.ph[ri], i, j, n)
-			}
-			h[p*dim+q] = v
-			h[q*dim+p] = v
-		}
+	if m == 2 {
+		ws.hessian2(dim)
+	} else {
+		ws.hessianM(dim, depOf)
 	}
 	if !solveSPD(h, dim, g, dx, ws.L[:dim*dim], ws.sc[:dim]) {
 		return false, nil
@@ -445,12 +438,12 @@ func (ws *Workspace) newtonStep() (bool, error) {
 		d := dx[p]
 		ddep[i] -= d
 		if nm := ws.ph[k].nm[i]; d < 0 && nm+d <= 0 {
-			tmax = math.Min(tmax, 0.9*nm/-d)
+			tmax = min(tmax, 0.9*nm/-d)
 		}
 	}
 	for _, i := range ws.act {
 		if nm := ws.ph[depOf(i)].nm[i]; ddep[i] < 0 && nm+ddep[i] <= 0 {
-			tmax = math.Min(tmax, 0.9*nm/-ddep[i])
+			tmax = min(tmax, 0.9*nm/-ddep[i])
 		}
 	}
 	g0 := ws.gibbs()
@@ -473,7 +466,7 @@ func (ws *Workspace) newtonStep() (bool, error) {
 			ws.ph[r].nm[i] = ws.ph[r].nm0[i] + t*ddep[i]
 		}
 		ws.molesToX()
-		if err := ws.evalAll(eos.WantN); err != nil {
+		if err := ws.evalAll(want); err != nil {
 			return false, err
 		}
 		g1 := ws.gibbs()
@@ -501,13 +494,83 @@ func (ws *Workspace) depPhase(i int) int {
 	return r
 }
 
-// aterm is A_ij = (δ_ij/x_i − 1 + DN_ij)/β of phase p.
-func aterm(p *phaseState, i, j, n int) float64 {
-	v := p.f.DN[i*n+j] - 1
-	if i == j {
-		v += 1 / math.Max(p.x[i], tiny)
+// hessian2 fills ws.H and ws.g for two phases. With σ_i = +1 when the
+// unknown of component i is in phase 0 and −1 when it is in phase 1, the
+// general expression of newtonStep reduces to
+//
+//	g_i = σ_i (ln f_i0 − ln f_i1),  H_ij = σ_i σ_j (A⁰_ij + A¹_ij).
+func (ws *Workspace) hessian2(dim int) {
+	n := ws.n
+	p0, p1 := &ws.ph[0], &ws.ph[1]
+	ib0, ib1 := 1/p0.beta, 1/p1.beta
+	c := -(ib0 + ib1)
+	sg := ws.sig[:dim]
+	h := ws.H[:dim*dim]
+	for a := range dim {
+		i := ws.vi[a]
+		sg[a] = 1
+		if ws.vk[a] == 1 {
+			sg[a] = -1
+		}
+		ws.g[a] = sg[a] * (p0.lnf[i] - p1.lnf[i])
 	}
-	return v / p.beta
+	for a := range dim {
+		i := ws.vi[a]
+		d0, d1 := p0.f.DN[i*n:i*n+n], p1.f.DN[i*n:i*n+n]
+		row := h[a*dim : a*dim+dim]
+		sa := sg[a]
+		for b := a; b < dim; b++ {
+			j := ws.vi[b]
+			v := sa * sg[b] * (d0[j]*ib0 + d1[j]*ib1 + c)
+			row[b] = v
+			h[b*dim+a] = v
+		}
+		row[a] += ib0/max(p0.x[i], tiny) + ib1/max(p1.x[i], tiny)
+	}
+}
+
+// hessianM fills ws.H and ws.g for any phase count by the expression of
+// newtonStep, from A^k_ij = (δ_ij/x_ik − 1 + DN^k_ij)/β_k stored per phase.
+func (ws *Workspace) hessianM(dim int, depOf func(int) int) {
+	n, m := ws.n, ws.m
+	A := ws.A
+	for k := range m {
+		p := &ws.ph[k]
+		ib := 1 / p.beta
+		ak := A[k*n*n : (k+1)*n*n]
+		for _, i := range ws.act {
+			for _, j := range ws.act {
+				ak[i*n+j] = (p.f.DN[i*n+j] - 1) * ib
+			}
+			ak[i*n+i] += ib / max(p.x[i], tiny)
+		}
+	}
+	h, g := ws.H[:dim*dim], ws.g[:dim]
+	for p := range dim {
+		i, k := ws.vi[p], ws.vk[p]
+		ri := depOf(i)
+		g[p] = ws.ph[k].lnf[i] - ws.ph[ri].lnf[i]
+		for q := p; q < dim; q++ {
+			j, l := ws.vi[q], ws.vk[q]
+			rj := depOf(j)
+			ij := i*n + j
+			v := 0.0
+			if k == l {
+				v += A[k*n*n+ij]
+			}
+			if k == rj {
+				v -= A[k*n*n+ij]
+			}
+			if l == ri {
+				v -= A[l*n*n+ij]
+			}
+			if ri == rj {
+				v += A[ri*n*n+ij]
+			}
+			h[p*dim+q] = v
+			h[q*dim+p] = v
+		}
+	}
 }
 
 // molesToX sets β_k and x_ik from the mole numbers.
@@ -520,7 +583,7 @@ func (ws *Workspace) molesToX() {
 		}
 		p.beta = s
 		for _, i := range ws.act {
-			p.x[i] = math.Max(p.nm[i], 0) / s
+			p.x[i] = max(p.nm[i], 0) / s
 		}
 	}
 }

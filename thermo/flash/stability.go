@@ -19,15 +19,25 @@ const (
 	// stabSS is the number of successive-substitution steps of a trial
 	// before it switches to Newton.
 	stabSS = 6
-	// existTol: a trial closer than this (same measure as trivialTol) to a
-	// phase already found is stopped: it is converging to that phase.
-	existTol = 1e-3
+	// existTol and existFrac: a trial closer than
+	// min(existTol, existFrac·d_min) (same measure as trivialTol; d_min the
+	// smallest such distance between two phases already found) to a phase
+	// already found is stopped: it is converging to that phase. Scaling by
+	// d_min keeps the test strict where the phases are close (near a
+	// critical point), where a different stationary point could lie near
+	// one of them.
+	existTol  = 1e-2
+	existFrac = 0.05
 	// acidGasTrial is the feed mole fraction of CO2 or H2S from which a
 	// pure-component-like trial of it is added.
 	acidGasTrial = 0.1
 	// posTM: a trial with tm above it whose extrapolated remaining
 	// decrease is below a quarter of tm is stable.
 	posTM = 1e-2
+	// lnPureMajor and lnPureMinor start a pure-component-like trial:
+	// W_j = 0.999 for its component, W_i = 1e-3·z_i for the others.
+	lnPureMajor = -1.0005003335835344e-3 // ln 0.999
+	lnPureMinor = -6.907755278982137     // ln 1e-3
 )
 
 // StabilityResult is the outcome of a stability test.
@@ -156,6 +166,17 @@ func (ws *Workspace) setupTrials() {
 func (ws *Workspace) stabilityTest(lnRef []float64, nExist int) (float64, int, error) {
 	minTPD, best := math.Inf(1), -1
 	ws.nTrial = len(ws.trials)
+	ws.nearTol = existTol
+	for k := 0; k < nExist; k++ {
+		for l := k + 1; l < nExist; l++ {
+			d := 0.0
+			for _, i := range ws.act {
+				e := ws.ph[k].lnx[i] - ws.ph[l].lnx[i]
+				d += e * e
+			}
+			ws.nearTol = min(ws.nearTol, existFrac*d)
+		}
+	}
 	for t := range ws.trials {
 		tpd, ok, err := ws.runTrial(t, lnRef, nExist)
 		if err != nil {
@@ -192,14 +213,14 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 	for _, i := range ws.act {
 		switch spec.kind {
 		case trialVapour:
-			lnW[i] = math.Log(ws.z[i]) + ws.lnKw[i]
+			lnW[i] = ws.lnz[i] + ws.lnKw[i]
 		case trialLiquid:
-			lnW[i] = math.Log(ws.z[i]) - ws.lnKw[i]
+			lnW[i] = ws.lnz[i] - ws.lnKw[i]
 		default:
 			if i == spec.comp {
-				lnW[i] = math.Log(0.999)
+				lnW[i] = lnPureMajor
 			} else {
-				lnW[i] = math.Log(1e-3 * ws.z[i])
+				lnW[i] = lnPureMinor + ws.lnz[i]
 			}
 		}
 		W[i] = math.Exp(lnW[i])
@@ -241,7 +262,7 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 			ws.lnWn[i] = r
 			tpd += ws.w[i] * (r - lsw)
 			tm += W[i] * (r - 1)
-			res = math.Max(res, math.Abs(r))
+			res = max(res, math.Abs(r))
 		}
 		if newton && tm > tmAcc+1e-12*math.Abs(tmAcc) && step > 1e-3 {
 			// Backtrack along the last Newton direction.
@@ -260,7 +281,7 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		// phase already found.
 		near := ws.dist(lnW, ws.lnWn, lnRef) < trivialTol
 		for k := 0; k < nExist && !near; k++ {
-			near = ws.dist(lnW, ws.lnWn, ws.ph[k].lnx) < existTol
+			near = ws.dist(lnW, ws.lnWn, ws.ph[k].lnx) < ws.nearTol
 		}
 		if near {
 			ok = false
@@ -364,7 +385,7 @@ func (ws *Workspace) alphaStep(t float64) {
 		if a <= 0 {
 			a = 0.1 * ws.Wp[i]
 		}
-		ws.W[i] = math.Max(a*a/4, tiny)
+		ws.W[i] = max(a*a/4, tiny)
 		ws.lnW[i] = math.Log(ws.W[i])
 	}
 }

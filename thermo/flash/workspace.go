@@ -43,6 +43,11 @@ type Workspace struct {
 	mx  *eos.Mixture
 	ews *eos.Workspace
 	n   int
+	// aq is the mixture's aqueous view (nil without an aqueous parameter
+	// set) and aws its workspace: compositions with a water mole fraction
+	// above eos.AqueousWaterFraction are evaluated through it.
+	aq  *eos.Mixture
+	aws *eos.Workspace
 
 	// call state
 	ctx    context.Context
@@ -74,13 +79,16 @@ type Workspace struct {
 	trialT  [maxTrials]float64
 	trialOK [maxTrials]bool
 	nTrial  int
+	nearTol float64 // distance below which a trial is converging to a found phase
 
 	// two-phase successive substitution
 	lnK, lnKp, dK1, dK2, K []float64
 
 	// linear algebra, sized for (MaxPhases−1)·n unknowns
 	H, L, g, dx, sc []float64
-	vi, vk          []int // Newton unknown p is n of component vi[p] in phase vk[p]
+	A               []float64 // A^k_ij of the Newton Hessian, (MaxPhases+1)·n·n
+	sig             []float64 // σ_i of the two-phase Hessian
+	vi, vk          []int     // Newton unknown p is n of component vi[p] in phase vk[p]
 
 	// multiphase split
 	e  []float64 // e_ik, n×(MaxPhases+1)
@@ -112,6 +120,8 @@ func NewWorkspace(mx *eos.Mixture) *Workspace {
 	ws.sc = make([]float64, dim)
 	ws.vi = make([]int, dim)
 	ws.vk = make([]int, dim)
+	ws.A = make([]float64, (MaxPhases+1)*n*n)
+	ws.sig = make([]float64, dim)
 	for k := range ws.ph {
 		ws.ph[k] = phaseState{x: v(), nm: v(), nm0: v(), lnf: v(), lnx: v(), f: mx.NewFugacity()}
 	}
@@ -129,15 +139,29 @@ func NewWorkspace(mx *eos.Mixture) *Workspace {
 			ws.water = i
 		}
 	}
+	if mx.HasAqueous() && ws.water >= 0 {
+		ws.aq = mx.Aqueous()
+		ws.aws = ws.aq.NewWorkspace()
+	}
 	return ws
+}
+
+// aqueous reports whether composition x (mole fractions) is evaluated on
+// the aqueous parameter set.
+func (ws *Workspace) aqueous(x []float64) bool {
+	return ws.aq != nil && x[ws.water] > eos.AqueousWaterFraction
 }
 
 // Mixture returns the mixture the workspace was made for.
 func (ws *Workspace) Mixture() *eos.Mixture { return ws.mx }
 
-// eval evaluates ln φ of composition x on the root of lowest Gibbs energy.
+// eval evaluates ln φ of composition x (mole fractions) on the root of
+// lowest Gibbs energy, with the aqueous parameter set when x is aqueous.
 func (ws *Workspace) eval(x []float64, want eos.Want, f *eos.Fugacity) error {
 	ws.rep.LnPhiEvaluations++
+	if ws.aqueous(x) {
+		return ws.aq.Fugacity(ws.aws, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
+	}
 	return ws.mx.Fugacity(ws.ews, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
 }
 
