@@ -6,9 +6,7 @@ import (
 	"fmt"
 
 	"github.com/prometheus/client_golang/prometheus"
-	"google.golang.org/protobuf/proto"
 
-	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
 	"github.com/fugad/fugad/cache"
 )
 
@@ -24,7 +22,22 @@ type CacheConfig struct {
 	// FluidEntries bounds the compiled-fluid cache; zero selects
 	// cache.DefaultMaxFluids.
 	FluidEntries int
+	// Quantization, when positive, is the relative tolerance with which
+	// the floating-point inputs of every flash (the two specified values,
+	// the feed's mole fractions and the warm start) are rounded by
+	// cache.Quantize before the cache key is built, so that nearly equal
+	// states share a cached result. The solve then uses the rounded
+	// inputs, also with bypass_cache or the cache disabled, so that the
+	// answer does not depend on which nearby request came first, and
+	// every SolverReport states the tolerance in
+	// input_quantization_relative_tolerance. Off (exact keys) when zero;
+	// at most 1e-3. FugacityCoefficients is never quantised.
+	Quantization float64
 }
+
+// maxQuantization bounds CacheConfig.Quantization: a coarser grid would
+// move states by more than an engineer would accept unannounced.
+const maxQuantization = 1e-3
 
 // caches adapts the cache package to the server's fluidStore and
 // resultStore seams.
@@ -56,12 +69,22 @@ func (c *caches) key(kind string, b []byte) (cache.Key, error) {
 	return kb.Key()
 }
 
-func (c *caches) compiled(fl *fugadv1.Fluid, build func() (*compiledFluid, error)) (*compiledFluid, error) {
-	b, err := proto.MarshalOptions{Deterministic: true}.Marshal(fl)
+func (c *caches) get(def []byte) (*compiledFluid, bool) {
+	kb := keyBuilders.Get().(*cache.KeyBuilder)
+	defer keyBuilders.Put(kb)
+	kb.Reset()
+	kb.AppendString("fluid")
+	kb.AppendString(c.version)
+	kb.AppendBytes(def)
+	k, err := kb.Key()
 	if err != nil {
-		return build()
+		return nil, false
 	}
-	k, err := c.key("fluid", b)
+	return c.fluids.Get(k)
+}
+
+func (c *caches) compiled(def []byte, build func() (*compiledFluid, error)) (*compiledFluid, error) {
+	k, err := c.key("fluid", def)
 	if err != nil {
 		return build()
 	}
@@ -73,12 +96,7 @@ func (c *caches) compiled(fl *fugadv1.Fluid, build func() (*compiledFluid, error
 	return cf, err
 }
 
-func (c *caches) do(ctx context.Context, key []byte, solve func(ctx context.Context) ([]byte, bool, error)) ([]byte, bool, error) {
-	k, err := c.key("result", key)
-	if err != nil {
-		b, _, err := solve(ctx)
-		return b, false, err
-	}
+func (c *caches) do(ctx context.Context, k cache.Key, solve func(ctx context.Context) ([]byte, bool, error)) ([]byte, bool, error) {
 	v, hit, _, err := c.results.Do(ctx, k, cache.SolveFunc(solve))
 	var pe *cache.PanicError
 	if errors.As(err, &pe) {

@@ -68,7 +68,7 @@ const (
 
 // ModelVersion identifies the models and solvers compiled into this
 // server; it changes whenever a change can alter a result's bytes.
-const ModelVersion = "fugad-models-1"
+const ModelVersion = "fugad-models-2"
 
 // withDefaults returns c with every zero field replaced by its default, or
 // an error naming a negative field.
@@ -114,6 +114,9 @@ func (c Config) withDefaults() (Config, error) {
 		if *f.v == 0 {
 			*f.v = f.def
 		}
+	}
+	if q := c.Cache.Quantization; !(q >= 0 && q <= maxQuantization) {
+		return c, fmt.Errorf("server: config Cache.Quantization = %g: must lie in [0, %g]", q, maxQuantization)
 	}
 	if c.ModelVersion == "" {
 		c.ModelVersion = ModelVersion

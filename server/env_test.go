@@ -18,6 +18,7 @@ import (
 	"google.golang.org/grpc/test/bufconn"
 
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
+	"github.com/fugad/fugad/thermo/flash"
 )
 
 // testEnv is a Server behind a real gRPC connection.
@@ -36,6 +37,8 @@ type envOptions struct {
 	host HostOptions
 	tcp  bool // loopback TCP instead of bufconn
 	hook func(ctx context.Context, method string)
+	// flashOpts adjusts the options of every T–P flash (Server.flashOptionsHook).
+	flashOpts func(*flash.Options)
 }
 
 func newEnv(t *testing.T, o envOptions) *testEnv {
@@ -47,6 +50,7 @@ func newEnv(t *testing.T, o envOptions) *testEnv {
 		t.Fatal(err)
 	}
 	srv.solveHook = o.hook
+	srv.flashOptionsHook = o.flashOpts
 	host, err := NewHost(srv, reg, o.host)
 	if err != nil {
 		t.Fatal(err)

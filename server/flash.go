@@ -10,37 +10,149 @@ import (
 	spb "google.golang.org/genproto/googleapis/rpc/status"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
+	"google.golang.org/protobuf/proto"
 
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
-	"github.com/fugad/fugad/thermo/component"
-	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/cache"
 )
 
-// flashJob is one validated flash: everything a solver needs.
+// flashJob is one validated flash: everything a solver needs, and
+// everything its answer depends on (the result-cache key is built from
+// exactly these fields).
 type flashJob struct {
-	fluid  *compiledFluid
-	state  flashState
+	fluid *compiledFluid
+	// field is the wire path of the state ("state", "states[3]"), for
+	// errors the solver reports against it.
+	field string
+	spec  specKind
+	// a and b are the two specified values in the order of the
+	// specification's message (T and P for tp, P and H for ph, ...).
+	a, b float64
+	// x is the feed, validated and normalised.
+	x []float64
+	// warm is the initial estimate (validated), nil for none.
+	warm   *fugadv1.WarmStart
 	opts   *fugadv1.SolverOptions
 	bypass bool
+	// quant is the relative tolerance the inputs were quantised with,
+	// zero when they were not (CacheConfig.Quantization).
+	quant float64
 }
 
-// solveFlash is the translation of one flash onto the thermo solvers. The
-// flash solvers (stability analysis, phase split, state-function
-// specifications) are not part of this build, so every valid flash is
-// answered UNIMPLEMENTED; wiring them means filling in this function and
-// nothing else. It runs inside a solver slot.
+// specValues returns the two specified values of a validated state.
+func specValues(st *fugadv1.FlashState) (a, b float64) {
+	switch sp := st.GetSpecification().(type) {
+	case *fugadv1.FlashState_Tp:
+		return sp.Tp.GetTemperatureK(), sp.Tp.GetPressurePa()
+	case *fugadv1.FlashState_Ph:
+		return sp.Ph.GetPressurePa(), sp.Ph.GetMolarEnthalpyJPerMol()
+	case *fugadv1.FlashState_Ps:
+		return sp.Ps.GetPressurePa(), sp.Ps.GetMolarEntropyJPerMolK()
+	case *fugadv1.FlashState_Tv:
+		return sp.Tv.GetTemperatureK(), sp.Tv.GetMolarVolumeM3PerMol()
+	case *fugadv1.FlashState_Uv:
+		return sp.Uv.GetMolarInternalEnergyJPerMol(), sp.Uv.GetMolarVolumeM3PerMol()
+	case *fugadv1.FlashState_PVapourFraction:
+		return sp.PVapourFraction.GetPressurePa(), sp.PVapourFraction.GetVapourFraction()
+	case *fugadv1.FlashState_TVapourFraction:
+		return sp.TVapourFraction.GetTemperatureK(), sp.TVapourFraction.GetVapourFraction()
+	}
+	return 0, 0
+}
+
+// newFlashJob builds the job of a validated state. warm is the estimate to
+// use (the state's own, or a stream's implicit one); an estimate without
+// content counts as none. With quantisation configured the specified
+// values, the feed and the estimate are rounded here, before the key is
+// built and before the solve, so that both see the same numbers.
+func (s *Server) newFlashJob(cf *compiledFluid, field string, st flashState, warm *fugadv1.WarmStart, opts *fugadv1.SolverOptions, bypass bool) *flashJob {
+	if warm != nil && len(warm.GetKValues()) == 0 && len(warm.GetPhases()) == 0 && warm.TemperatureK == nil && warm.PressurePa == nil {
+		warm = nil
+	}
+	job := &flashJob{fluid: cf, field: field, spec: st.spec, x: st.x, warm: warm, opts: opts, bypass: bypass}
+	job.a, job.b = specValues(st.msg)
+	if q := s.cfg.Cache.Quantization; q > 0 {
+		job.quant = q
+		job.a, job.b = cache.Quantize(job.a, q), cache.Quantize(job.b, q)
+		job.x = quantizeAll(job.x, q)
+		if warm != nil {
+			w := &fugadv1.WarmStart{KValues: quantizeAll(warm.GetKValues(), q)}
+			for _, p := range warm.GetPhases() {
+				w.Phases = append(w.Phases, &fugadv1.PhaseEstimate{Label: p.GetLabel(), Amount: cache.Quantize(p.GetAmount(), q), MoleFractions: quantizeAll(p.GetMoleFractions(), q)})
+			}
+			if warm.TemperatureK != nil {
+				w.TemperatureK = proto.Float64(cache.Quantize(warm.GetTemperatureK(), q))
+			}
+			if warm.PressurePa != nil {
+				w.PressurePa = proto.Float64(cache.Quantize(warm.GetPressurePa(), q))
+			}
+			job.warm = w
+		}
+	}
+	return job
+}
+
+// quantizeAll returns a copy of xs rounded by cache.Quantize.
+func quantizeAll(xs []float64, relTol float64) []float64 {
+	if xs == nil {
+		return nil
+	}
+	out := make([]float64, len(xs))
+	for i, x := range xs {
+		out[i] = cache.Quantize(x, relTol)
+	}
+	return out
+}
+
+// flashKey builds the result-cache key of a job: the kind, the versions,
+// the fluid's definition and every input of the solve.
+func (s *Server) flashKey(job *flashJob) *cache.KeyBuilder {
+	kb := s.beginKey("flash")
+	kb.AppendBytes(job.fluid.def)
+	kb.AppendString(string(job.spec))
+	kb.AppendFloat64(job.a)
+	kb.AppendFloat64(job.b)
+	kb.AppendFloat64s(job.x)
+	kb.AppendFloat64(job.opts.GetTolerance())
+	kb.AppendUint64(uint64(job.opts.GetMaxIterations()))
+	w := job.warm
+	kb.AppendBool(w != nil)
+	if w != nil {
+		kb.AppendFloat64s(w.GetKValues())
+		kb.AppendUint64(uint64(len(w.GetPhases())))
+		for _, p := range w.GetPhases() {
+			kb.AppendInt64(int64(p.GetLabel()))
+			kb.AppendFloat64(p.GetAmount())
+			kb.AppendFloat64s(p.GetMoleFractions())
+		}
+		kb.AppendBool(w.TemperatureK != nil)
+		kb.AppendFloat64(w.GetTemperatureK())
+		kb.AppendBool(w.PressurePa != nil)
+		kb.AppendFloat64(w.GetPressurePa())
+	}
+	kb.AppendFloat64(job.quant)
+	return kb
+}
+
+// solveFlash is the translation of one flash onto the thermo solvers, by
+// specification. It runs inside a solver slot.
 func (s *Server) solveFlash(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
-	return nil, errNotImplemented("Flash")
+	switch job.spec {
+	case specTP:
+		return s.solveTP(ctx, job)
+	}
+	return nil, errNotImplemented("Flash with specification " + string(job.spec))
 }
 
 // solveSaturation is the translation of SaturationPoint onto the thermo
-// solvers; see solveFlash.
+// solvers. The saturation-point solver is not part of this build yet, so a
+// valid request is answered UNIMPLEMENTED.
 func (s *Server) solveSaturation(ctx context.Context, cf *compiledFluid, req *fugadv1.SaturationPointRequest, x []float64) (*fugadv1.SaturationPointResponse, error) {
 	return nil, errNotImplemented("SaturationPoint")
 }
 
 // solveEnvelope is the translation of PhaseEnvelope onto the thermo
-// solvers; see solveFlash. maxPoints is the effective point cap.
+// solvers; see solveSaturation. maxPoints is the effective point cap.
 func (s *Server) solveEnvelope(ctx context.Context, cf *compiledFluid, req *fugadv1.PhaseEnvelopeRequest, x []float64, maxPoints int) (*fugadv1.PhaseEnvelopeResponse, error) {
 	return nil, errNotImplemented("PhaseEnvelope")
 }
@@ -49,7 +161,7 @@ func (s *Server) solveEnvelope(ctx context.Context, cf *compiledFluid, req *fuga
 func (s *Server) Flash(ctx context.Context, req *fugadv1.FlashRequest) (*fugadv1.FlashResponse, error) {
 	info(ctx).states.Add(1)
 	var v violations
-	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	fc := s.checkFluid(&v, "fluid", req.GetFluid())
 	var st flashState
 	if n := s.fluidComponentCount(req.GetFluid()); n > 0 {
 		st = checkFlashState(&v, "state", req.GetState(), n, nil)
@@ -58,21 +170,60 @@ func (s *Server) Flash(ctx context.Context, req *fugadv1.FlashRequest) (*fugadv1
 	if err := v.err(); err != nil {
 		return nil, err
 	}
-	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	cf, err := s.compiled("fluid", fc)
 	if err != nil {
 		return nil, err
 	}
-	job := &flashJob{fluid: cf, state: st, opts: req.GetOptions(), bypass: req.GetBypassCache()}
-	var res *fugadv1.FlashResult
-	err = s.inSlot(ctx, "Flash", req, func() error {
-		var err error
-		res, err = s.flashTimed(ctx, job)
-		return err
-	})
+	job := s.newFlashJob(cf, "state", st, req.GetState().GetWarmStart(), req.GetOptions(), req.GetBypassCache())
+	res, err := s.answerFlash(ctx, "Flash", req, job, true)
 	if err != nil {
 		return nil, err
 	}
 	return &fugadv1.FlashResponse{Result: res}, nil
+}
+
+// answerFlash answers one flash job, through the result cache unless it is
+// disabled or the job bypasses it. A cached answer (hit or miss) comes back
+// as an encoded FlashResult (see hitMessage). With ownSlot the solve of a
+// miss takes a solver slot of its own (unary calls and stream messages;
+// a hit needs none); without, the caller already holds one (a batch
+// worker). req is logged with a recovered panic; it may be nil.
+func (s *Server) answerFlash(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool) (*fugadv1.FlashResult, error) {
+	solve := func(ctx context.Context) (*fugadv1.FlashResult, error) {
+		if !ownSlot {
+			return s.flashTimed(ctx, job)
+		}
+		var res *fugadv1.FlashResult
+		err := s.inSlot(ctx, method, req, func() error {
+			var err error
+			res, err = s.flashTimed(ctx, job)
+			return err
+		})
+		return res, err
+	}
+	if s.results == nil || job.bypass {
+		return solve(ctx)
+	}
+	raw, hit, err := s.cachedAnswer(ctx, s.flashKey(job), func(ctx context.Context) (proto.Message, error) {
+		return solve(ctx)
+	})
+	if err != nil {
+		return nil, err
+	}
+	r := new(fugadv1.FlashResult)
+	return hitMessage(r, raw, hit, func(rep *fugadv1.SolverReport) { r.Report = rep }), nil
+}
+
+// resultWarmStart returns the warm_start of a result, decoding it from an
+// encoded result.
+func resultWarmStart(r *fugadv1.FlashResult) *fugadv1.WarmStart {
+	if r.GetWarmStart() != nil {
+		return r.GetWarmStart()
+	}
+	if u := r.ProtoReflect().GetUnknown(); len(u) > 0 {
+		return warmStartOf(u)
+	}
+	return nil
 }
 
 // flashTimed runs solveFlash and records its metrics.
@@ -82,7 +233,7 @@ func (s *Server) flashTimed(ctx context.Context, job *flashJob) (*fugadv1.FlashR
 	if err != nil {
 		return nil, err
 	}
-	s.metrics.observeSolve(string(job.state.spec), time.Since(start), res.GetReport(), len(res.GetPhases()))
+	s.metrics.observeSolve(string(job.spec), time.Since(start), res.GetReport(), len(res.GetPhases()))
 	return res, nil
 }
 
@@ -107,7 +258,7 @@ func statusProto(err error) *spb.Status {
 func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest) (*fugadv1.FlashBatchResponse, error) {
 	ci := info(ctx)
 	var v violations
-	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	fc := s.checkFluid(&v, "fluid", req.GetFluid())
 	states := req.GetStates()
 	ci.states.Add(int64(len(states)))
 	switch {
@@ -125,7 +276,7 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 	if err := v.err(); err != nil {
 		return nil, err
 	}
-	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	cf, err := s.compiled("fluid", fc)
 	if err != nil {
 		return nil, err
 	}
@@ -143,7 +294,7 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 			items[i] = &fugadv1.FlashBatchItem{Status: statusProto(err)}
 			continue
 		}
-		jobs[i] = &flashJob{fluid: cf, state: fs, opts: req.GetOptions(), bypass: req.GetBypassCache()}
+		jobs[i] = s.newFlashJob(cf, f, fs, st.GetWarmStart(), req.GetOptions(), req.GetBypassCache())
 	}
 
 	release, err := s.slot("FlashBatch")
@@ -191,7 +342,7 @@ func (s *Server) batchItem(ctx context.Context, job *flashJob) (item *fugadv1.Fl
 	if s.solveHook != nil {
 		s.solveHook(ctx, "FlashBatch")
 	}
-	res, err := s.flashTimed(ctx, job)
+	res, err := s.answerFlash(ctx, "FlashBatch", nil, job, false)
 	if err != nil {
 		return &fugadv1.FlashBatchItem{Status: statusProto(err)}
 	}
@@ -203,6 +354,10 @@ type streamSession struct {
 	fluid *compiledFluid
 	def   []float64
 	opts  *fugadv1.SolverOptions
+	// warm is the warm_start of the most recent successful result for the
+	// current fluid: the implicit estimate of the next message (see
+	// FlashStreamRequest.no_implicit_warm_start).
+	warm *fugadv1.WarmStart
 }
 
 // FlashStream answers one flash per request message, in order. A message
@@ -269,14 +424,10 @@ func (s *Server) FlashStream(stream fugadv1.FugadService_FlashStreamServer) erro
 // session's fluid, default composition and options.
 func (s *Server) streamMessage(ctx context.Context, sess *streamSession, req *fugadv1.FlashStreamRequest) (*fugadv1.FlashResult, error) {
 	var v violations
-	var (
-		model eos.Model
-		comps []component.Component
-		opts  eos.Options
-	)
+	var fc fluidCheck
 	newFluid := req.GetFluid() != nil
 	if newFluid {
-		model, comps, opts = s.checkFluid(&v, "fluid", req.GetFluid())
+		fc = s.checkFluid(&v, "fluid", req.GetFluid())
 	} else if sess.fluid == nil {
 		v.add("fluid", "required on the first message of a stream (and after a message whose fluid was rejected)")
 	}
@@ -304,17 +455,17 @@ func (s *Server) streamMessage(ctx context.Context, sess *streamSession, req *fu
 	}
 	if err := v.err(); err != nil {
 		if newFluid {
-			sess.fluid, sess.def = nil, nil
+			sess.fluid, sess.def, sess.warm = nil, nil, nil
 		}
 		return nil, err
 	}
 	if newFluid {
-		cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+		cf, err := s.compiled("fluid", fc)
 		if err != nil {
-			sess.fluid, sess.def = nil, nil
+			sess.fluid, sess.def, sess.warm = nil, nil, nil
 			return nil, err
 		}
-		sess.fluid = cf
+		sess.fluid, sess.warm = cf, nil
 	}
 	sess.def = def
 	if req.GetOptions() != nil {
@@ -322,21 +473,26 @@ func (s *Server) streamMessage(ctx context.Context, sess *streamSession, req *fu
 	}
 	mctx, cancel := context.WithTimeout(ctx, s.cfg.MaxDeadline)
 	defer cancel()
-	job := &flashJob{fluid: sess.fluid, state: fs, opts: sess.opts, bypass: req.GetBypassCache()}
-	var res *fugadv1.FlashResult
-	err := s.inSlot(mctx, "FlashStream", req, func() error {
-		var err error
-		res, err = s.flashTimed(mctx, job)
-		return err
-	})
-	return res, err
+	warm := req.GetState().GetWarmStart()
+	if warm == nil && !req.GetNoImplicitWarmStart() {
+		warm = sess.warm
+	}
+	job := s.newFlashJob(sess.fluid, "state", fs, warm, sess.opts, req.GetBypassCache())
+	res, err := s.answerFlash(mctx, "FlashStream", req, job, true)
+	if err != nil {
+		return nil, err
+	}
+	if w := resultWarmStart(res); w != nil {
+		sess.warm = w
+	}
+	return res, nil
 }
 
 // SaturationPoint finds a bubble or dew point.
 func (s *Server) SaturationPoint(ctx context.Context, req *fugadv1.SaturationPointRequest) (*fugadv1.SaturationPointResponse, error) {
 	info(ctx).states.Add(1)
 	var v violations
-	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	fc := s.checkFluid(&v, "fluid", req.GetFluid())
 	n := s.fluidComponentCount(req.GetFluid())
 	var x []float64
 	if n > 0 {
@@ -360,7 +516,7 @@ func (s *Server) SaturationPoint(ctx context.Context, req *fugadv1.SaturationPoi
 	if err := v.err(); err != nil {
 		return nil, err
 	}
-	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	cf, err := s.compiled("fluid", fc)
 	if err != nil {
 		return nil, err
 	}
@@ -386,7 +542,7 @@ const (
 func (s *Server) PhaseEnvelope(ctx context.Context, req *fugadv1.PhaseEnvelopeRequest) (*fugadv1.PhaseEnvelopeResponse, error) {
 	info(ctx).states.Add(1)
 	var v violations
-	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	fc := s.checkFluid(&v, "fluid", req.GetFluid())
 	var x []float64
 	if n := s.fluidComponentCount(req.GetFluid()); n > 0 {
 		x = composition(&v, "mole_fractions", req.GetMoleFractions(), n)
@@ -418,7 +574,7 @@ func (s *Server) PhaseEnvelope(ctx context.Context, req *fugadv1.PhaseEnvelopeRe
 	if err := v.err(); err != nil {
 		return nil, err
 	}
-	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	cf, err := s.compiled("fluid", fc)
 	if err != nil {
 		return nil, err
 	}

@@ -6,17 +6,23 @@ import (
 	"strings"
 	"sync"
 
+	"google.golang.org/protobuf/proto"
+
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
 	"github.com/fugad/fugad/thermo/component"
 	"github.com/fugad/fugad/thermo/eos"
 )
 
-// compiledFluid is a validated Fluid compiled into an eos.Mixture, with a
-// pool of per-goroutine scratch memory. It is immutable and shared.
+// compiledFluid is a validated Fluid compiled into an eos.Mixture, with
+// pools of per-goroutine scratch memory. It is immutable and shared.
 type compiledFluid struct {
 	mixture *eos.Mixture
 	ids     []string  // component ids in order, for reports
 	scratch sync.Pool // of *evalScratch
+	flashes sync.Pool // of *flashScratch
+	// def is the deterministic encoding of the Fluid message the fluid was
+	// compiled from: the fluid's identity in result-cache keys.
+	def []byte
 }
 
 // evalScratch is the scratch memory of one evaluation.
@@ -33,6 +39,17 @@ func (cf *compiledFluid) getScratch() *evalScratch {
 }
 
 func (cf *compiledFluid) putScratch(s *evalScratch) { cf.scratch.Put(s) }
+
+// getFlash returns a T–P flash workspace with its result for this fluid,
+// from the pool; putFlash returns it.
+func (cf *compiledFluid) getFlash() *flashScratch {
+	if s, ok := cf.flashes.Get().(*flashScratch); ok {
+		return s
+	}
+	return newFlashScratch(cf.mixture)
+}
+
+func (cf *compiledFluid) putFlash(s *flashScratch) { cf.flashes.Put(s) }
 
 // n returns the number of components.
 func (cf *compiledFluid) n() int { return cf.mixture.N() }
@@ -51,11 +68,44 @@ func eosModel(m fugadv1.Model) (eos.Model, bool) {
 	return eos.ModelUnspecified, false
 }
 
-// checkFluid validates a Fluid and resolves its components. It records
-// every violation under prefix (normally "fluid") and returns the model,
-// the components and the mixture options; comps is nil when anything was
-// wrong.
-func (s *Server) checkFluid(v *violations, prefix string, fl *fugadv1.Fluid) (eos.Model, []component.Component, eos.Options) {
+// fluidCheck is the outcome of checkFluid: the compiled fluid when one was
+// found under the fluid's definition, else the resolved components to
+// compile.
+type fluidCheck struct {
+	cf    *compiledFluid
+	def   []byte // deterministic encoding of the Fluid; nil without caches
+	model eos.Model
+	comps []component.Component // nil when the fluid was bad
+	opts  eos.Options
+}
+
+// checkFluid validates a Fluid, recording every violation under prefix
+// (normally "fluid"). A fluid whose deterministic encoding is in the
+// compiled-fluid cache passed these checks when it was compiled (they
+// depend only on the message and the server's fixed limits), so it is
+// taken as it is; any other is resolved by resolveFluid.
+func (s *Server) checkFluid(v *violations, prefix string, fl *fugadv1.Fluid) fluidCheck {
+	var fc fluidCheck
+	if fl != nil && (s.fluids != nil || s.results != nil) {
+		def, err := proto.MarshalOptions{Deterministic: true}.Marshal(fl)
+		if err == nil {
+			fc.def = def
+			if s.fluids != nil {
+				if cf, ok := s.fluids.get(def); ok {
+					fc.cf = cf
+					return fc
+				}
+			}
+		}
+	}
+	fc.model, fc.comps, fc.opts = s.resolveFluid(v, prefix, fl)
+	return fc
+}
+
+// resolveFluid validates a Fluid and resolves its components. It records
+// every violation under prefix and returns the model, the components and
+// the mixture options; comps is nil when anything was wrong.
+func (s *Server) resolveFluid(v *violations, prefix string, fl *fugadv1.Fluid) (eos.Model, []component.Component, eos.Options) {
 	var opts eos.Options
 	if fl == nil {
 		v.add(prefix, "required")
@@ -339,14 +389,22 @@ func eosFieldPath(f string) string {
 
 // compiled compiles a fluid that checkFluid accepted, through the
 // compiled-fluid cache when one is configured. It returns a status error.
-func (s *Server) compiled(prefix string, fl *fugadv1.Fluid, model eos.Model, comps []component.Component, opts eos.Options) (*compiledFluid, error) {
-	if comps == nil {
+func (s *Server) compiled(prefix string, fc fluidCheck) (*compiledFluid, error) {
+	if fc.cf != nil {
+		return fc.cf, nil
+	}
+	if fc.comps == nil {
 		return nil, errInternal(fmt.Sprintf("%s passed validation without components", prefix))
 	}
-	if s.fluids != nil {
-		return s.fluids.compiled(fl, func() (*compiledFluid, error) {
-			return s.compileFluid(prefix, model, comps, opts)
-		})
+	build := func() (*compiledFluid, error) {
+		cf, err := s.compileFluid(prefix, fc.model, fc.comps, fc.opts)
+		if err == nil {
+			cf.def = fc.def
+		}
+		return cf, err
 	}
-	return s.compileFluid(prefix, model, comps, opts)
+	if s.fluids != nil && fc.def != nil {
+		return s.fluids.compiled(fc.def, build)
+	}
+	return build()
 }

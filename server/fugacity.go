@@ -5,7 +5,6 @@ import (
 	"errors"
 	"time"
 
-	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/proto"
 
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
@@ -53,7 +52,7 @@ func (s *Server) fluidComponentCount(fl *fugadv1.Fluid) int {
 func (s *Server) FugacityCoefficients(ctx context.Context, req *fugadv1.FugacityCoefficientsRequest) (*fugadv1.FugacityCoefficientsResponse, error) {
 	info(ctx).states.Add(1)
 	var v violations
-	model, comps, opts := s.checkFluid(&v, "fluid", req.GetFluid())
+	fc := s.checkFluid(&v, "fluid", req.GetFluid())
 	checkTemperature(&v, "temperature_k", req.GetTemperatureK())
 	checkPressure(&v, "pressure_pa", req.GetPressurePa())
 	var x []float64
@@ -67,7 +66,7 @@ func (s *Server) FugacityCoefficients(ctx context.Context, req *fugadv1.Fugacity
 	if err := v.err(); err != nil {
 		return nil, err
 	}
-	cf, err := s.compiled("fluid", req.GetFluid(), model, comps, opts)
+	cf, err := s.compiled("fluid", fc)
 	if err != nil {
 		return nil, err
 	}
@@ -83,11 +82,21 @@ func (s *Server) FugacityCoefficients(ctx context.Context, req *fugadv1.Fugacity
 	if s.results == nil || req.GetBypassCache() {
 		return solve(ctx)
 	}
-	key, err := requestKey("FugacityCoefficients", req)
+	kb := s.beginKey("fugacity")
+	kb.AppendBytes(cf.def)
+	kb.AppendFloat64(req.GetTemperatureK())
+	kb.AppendFloat64(req.GetPressurePa())
+	kb.AppendFloat64s(x)
+	kb.AppendInt64(int64(req.GetRoot()))
+	kb.AppendBool(req.GetTemperatureDerivatives())
+	kb.AppendBool(req.GetPressureDerivatives())
+	kb.AppendBool(req.GetCompositionDerivatives())
+	raw, hit, err := s.cachedAnswer(ctx, kb, func(ctx context.Context) (proto.Message, error) { return solve(ctx) })
 	if err != nil {
-		return nil, errInternal("building the cache key")
+		return nil, err
 	}
-	return cachedCall(ctx, s, key, solve, func(r *fugadv1.FugacityCoefficientsResponse) *fugadv1.SolverReport { return r.GetReport() })
+	r := new(fugadv1.FugacityCoefficientsResponse)
+	return hitMessage(r, raw, hit, func(rep *fugadv1.SolverReport) { r.Report = rep }), nil
 }
 
 // fugacity is the translation of FugacityCoefficients onto the eos kernel.
@@ -164,7 +173,7 @@ func (s *Server) solverError(err error, prefix string) error {
 		v.add(fieldPath(prefix, eosFieldPath(ie.Field)), "%s (value %g)", ie.Reason, ie.Value)
 		return v.err()
 	case errors.As(err, &ce):
-		s.metrics.nonConverged.WithLabelValues(ReasonNotConverged).Inc()
+		s.metrics.nonConverged.WithLabelValues(ReasonNotConverged, "other").Inc()
 		rep := s.report()
 		rep.FinalResidual = ce.Residual
 		return notConverged(ce.What, ce.Iterations, ce.Residual, &fugadv1.NotConvergedDetail{Residual: ce.Residual, Report: rep})
@@ -172,49 +181,4 @@ func (s *Server) solverError(err error, prefix string) error {
 		return ctxErr(err)
 	}
 	return errInternal("solver failed: " + err.Error())
-}
-
-// requestKey is the result-cache key of a request: the method name and
-// the deterministic encoding of the request with bypass_cache cleared.
-func requestKey(method string, req proto.Message) ([]byte, error) {
-	m := proto.Clone(req).ProtoReflect()
-	if fd := m.Descriptor().Fields().ByName("bypass_cache"); fd != nil {
-		m.Clear(fd)
-	}
-	b, err := proto.MarshalOptions{Deterministic: true}.Marshal(m.Interface())
-	if err != nil {
-		return nil, err
-	}
-	return append([]byte(method+"\x00"), b...), nil
-}
-
-// cachedCall answers through the result cache: a hit decodes the stored
-// bytes and marks the report from_cache.
-func cachedCall[R proto.Message](ctx context.Context, s *Server, key []byte, solve func(context.Context) (R, error), report func(R) *fugadv1.SolverReport) (R, error) {
-	var zero R
-	b, hit, err := s.results.do(ctx, key, func(ctx context.Context) ([]byte, bool, error) {
-		r, err := solve(ctx)
-		if err != nil {
-			return nil, false, err
-		}
-		b, err := proto.MarshalOptions{Deterministic: true}.Marshal(r)
-		return b, err == nil, err
-	})
-	if err != nil {
-		if _, ok := status.FromError(err); ok {
-			return zero, err
-		}
-		return zero, ctxErr(err)
-	}
-	out := zero.ProtoReflect().New().Interface().(R)
-	if err := proto.Unmarshal(b, out); err != nil {
-		return zero, errInternal("decoding a cached result")
-	}
-	if hit {
-		info(ctx).cacheHits.Add(1)
-		if rep := report(out); rep != nil {
-			rep.FromCache = true
-		}
-	}
-	return out, nil
 }

@@ -3,6 +3,7 @@ package server
 import (
 	"fmt"
 	"strconv"
+	"sync"
 	"time"
 
 	"github.com/prometheus/client_golang/prometheus"
@@ -16,10 +17,16 @@ type metrics struct {
 	iterations   *prometheus.HistogramVec // fugad_solver_iterations{stage}
 	lnPhiEvals   prometheus.Histogram     // fugad_solver_lnphi_evaluations
 	solveSeconds *prometheus.HistogramVec // fugad_solve_duration_seconds{spec}
-	nonConverged *prometheus.CounterVec   // fugad_solver_nonconverged_total{reason}
+	nonConverged *prometheus.CounterVec   // fugad_solver_nonconverged_total{reason,stage}
+	stopped      *prometheus.CounterVec   // fugad_solver_stopped_total{reason}
 	phases       *prometheus.CounterVec   // fugad_phases_total{phases}
 	shed         *prometheus.CounterVec   // fugad_shed_total{method}
 	panics       prometheus.Counter       // fugad_panics_total
+
+	// Series kept for observeSolve, by stage enum value and phase count.
+	stageIterations [fugadv1.SolverStage_SOLVER_STAGE_FUGACITY + 1]*series[prometheus.Observer]
+	phaseCounts     [4]*series[prometheus.Counter]
+	tpSeconds       *series[prometheus.Observer]
 }
 
 // Buckets. Iteration counts of a converged flash stage are mostly 1–30
@@ -53,7 +60,11 @@ func newMetrics(reg prometheus.Registerer) (*metrics, error) {
 		}, []string{"spec"}),
 		nonConverged: prometheus.NewCounterVec(prometheus.CounterOpts{
 			Name: "fugad_solver_nonconverged_total",
-			Help: "States whose solver stopped without converging, by reason.",
+			Help: "States whose solver stopped without converging, by ErrorInfo reason and failed stage (phase_split, three_phase_split, stability, other).",
+		}, []string{"reason", "stage"}),
+		stopped: prometheus.NewCounterVec(prometheus.CounterOpts{
+			Name: "fugad_solver_stopped_total",
+			Help: "Solves stopped inside their iterations because the call's deadline passed or it was cancelled, by reason (deadline_exceeded, cancelled).",
 		}, []string{"reason"}),
 		phases: prometheus.NewCounterVec(prometheus.CounterOpts{
 			Name: "fugad_phases_total",
@@ -68,7 +79,16 @@ func newMetrics(reg prometheus.Registerer) (*metrics, error) {
 			Help: "Panics recovered in handlers and answered with INTERNAL.",
 		}),
 	}
-	for _, c := range []prometheus.Collector{m.iterations, m.lnPhiEvals, m.solveSeconds, m.nonConverged, m.phases, m.shed, m.panics} {
+	for st := range m.stageIterations {
+		label := stageLabel(fugadv1.SolverStage(st))
+		m.stageIterations[st] = newSeries(func() prometheus.Observer { return m.iterations.WithLabelValues(label) })
+	}
+	for k := range m.phaseCounts {
+		label := strconv.Itoa(k)
+		m.phaseCounts[k] = newSeries(func() prometheus.Counter { return m.phases.WithLabelValues(label) })
+	}
+	m.tpSeconds = newSeries(func() prometheus.Observer { return m.solveSeconds.WithLabelValues(string(specTP)) })
+	for _, c := range []prometheus.Collector{m.iterations, m.lnPhiEvals, m.solveSeconds, m.nonConverged, m.stopped, m.phases, m.shed, m.panics} {
 		if err := reg.Register(c); err != nil {
 			return nil, fmt.Errorf("server: registering metrics: %w", err)
 		}
@@ -102,19 +122,49 @@ func stageLabel(s fugadv1.SolverStage) string {
 
 // observeSolve records one solved state: its duration under spec, its
 // report, and for a flash result its phase count (phases ≤ 0 skips that).
+// The series of the T–P spec, the stages and the phase counts are looked
+// up once and kept (see series), since a label lookup per observation
+// costs as much as the rest of a state's bookkeeping.
 func (m *metrics) observeSolve(spec string, d time.Duration, r *fugadv1.SolverReport, phases int) {
-	m.solveSeconds.WithLabelValues(spec).Observe(d.Seconds())
+	if spec == string(specTP) {
+		m.tpSeconds.get().Observe(d.Seconds())
+	} else {
+		m.solveSeconds.WithLabelValues(spec).Observe(d.Seconds())
+	}
 	if r == nil {
 		return
 	}
 	for _, st := range r.GetStages() {
-		if st.GetStage() == fugadv1.SolverStage_SOLVER_STAGE_FUGACITY {
-			continue // a direct evaluation has no iterations to count
+		stage := st.GetStage()
+		switch {
+		case stage == fugadv1.SolverStage_SOLVER_STAGE_FUGACITY:
+			// A direct evaluation has no iterations to count.
+		case int(stage) >= 0 && int(stage) < len(m.stageIterations):
+			m.stageIterations[stage].get().Observe(float64(st.GetIterations()))
+		default:
+			m.iterations.WithLabelValues(stageLabel(stage)).Observe(float64(st.GetIterations()))
 		}
-		m.iterations.WithLabelValues(stageLabel(st.GetStage())).Observe(float64(st.GetIterations()))
 	}
 	m.lnPhiEvals.Observe(float64(r.GetLnPhiEvaluations()))
-	if phases > 0 {
+	switch {
+	case phases > 0 && phases < len(m.phaseCounts):
+		m.phaseCounts[phases].get().Inc()
+	case phases > 0:
 		m.phases.WithLabelValues(strconv.Itoa(phases)).Inc()
 	}
+}
+
+// series is one labelled series of a vector, looked up on first use (so
+// that the exposition lists only series that happened) and kept.
+type series[T any] struct {
+	once   sync.Once
+	lookup func() T
+	v      T
+}
+
+func newSeries[T any](lookup func() T) *series[T] { return &series[T]{lookup: lookup} }
+
+func (s *series[T]) get() T {
+	s.once.Do(func() { s.v = s.lookup() })
+	return s.v
 }

@@ -44,7 +44,9 @@ import (
 	"google.golang.org/protobuf/proto"
 
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
+	"github.com/fugad/fugad/cache"
 	"github.com/fugad/fugad/thermo/component"
+	"github.com/fugad/fugad/thermo/flash"
 )
 
 // Server implements fugadv1.FugadServiceServer.
@@ -59,10 +61,17 @@ type Server struct {
 	// fluids and results are the caches; nil means no caching.
 	fluids  fluidStore
 	results resultStore
+	// cacheVersion (data and model version) starts every cache key.
+	cacheVersion string
 
 	// solveHook, when set, runs inside every solver slot before the solve.
 	// Tests use it to hold slots and to inject panics.
 	solveHook func(ctx context.Context, method string)
+	// flashOptionsHook, when set, adjusts the options of every T–P flash.
+	// Tests use it to force outcomes the wire options cannot (for example
+	// a phase cap below the phase count, which the flash reports as not
+	// converged).
+	flashOptionsHook func(*flash.Options)
 }
 
 var _ fugadv1.FugadServiceServer = (*Server)(nil)
@@ -87,8 +96,9 @@ func New(cfg Config, log *zap.Logger, reg prometheus.Registerer) (*Server, error
 		metrics: m,
 		pool:    semaphore.NewWeighted(int64(cfg.MaxConcurrentSolves)),
 	}
+	s.cacheVersion = cfg.DataVersion + "/" + cfg.ModelVersion
 	if !cfg.Cache.Disabled {
-		c, err := newCaches(cfg.Cache, cfg.DataVersion+"/"+cfg.ModelVersion, func(p any) error { return s.panicked("cache", nil, p) })
+		c, err := newCaches(cfg.Cache, s.cacheVersion, func(p any) error { return s.panicked("cache", nil, p) })
 		if err != nil {
 			return nil, err
 		}
@@ -106,15 +116,18 @@ func (s *Server) Config() Config { return s.cfg }
 // componentDataVersion is the version of the component data bank.
 func componentDataVersion() string { return component.DataVersion }
 
-// fluidStore caches compiled fluids under the bytes of their definition.
+// fluidStore caches compiled fluids under the deterministic encoding of
+// their definition.
 type fluidStore interface {
-	compiled(fl *fugadv1.Fluid, build func() (*compiledFluid, error)) (*compiledFluid, error)
+	get(def []byte) (*compiledFluid, bool)
+	compiled(def []byte, build func() (*compiledFluid, error)) (*compiledFluid, error)
 }
 
-// resultStore caches serialised responses under a canonical request key.
-// solve returns the response bytes and whether they may be stored.
+// resultStore caches serialised answers under a canonical key (built with
+// beginKey). solve returns the answer's bytes and whether they may be
+// stored.
 type resultStore interface {
-	do(ctx context.Context, key []byte, solve func(ctx context.Context) ([]byte, bool, error)) (value []byte, hit bool, err error)
+	do(ctx context.Context, key cache.Key, solve func(ctx context.Context) ([]byte, bool, error)) (value []byte, hit bool, err error)
 }
 
 // callInfo accumulates what one call did, for its log line.

@@ -21,6 +21,7 @@ const (
 	maxAbsMolarCal  = 1e9   // J/mol or J/(mol·K): any larger magnitude is a unit mistake
 	maxIDLength     = 64    // characters of a component id
 	maxFilterLength = 64    // characters of ListComponentsRequest.filter
+	minIterationCap = 10    // SolverOptions.max_iterations, when not zero
 	maxIterationCap = 10000 // SolverOptions.max_iterations
 	minTolerance    = 1e-14
 	maxTolerance    = 1e-4
@@ -113,13 +114,15 @@ func composition(v *violations, field string, x []float64, n int) []float64 {
 	ok := true
 	sum := 0.0
 	for i, xi := range x {
-		f := index(field, i)
-		if !checkFinite(v, f, xi) {
+		// The field path is built only for a violation: this loop runs for
+		// every state of every batch.
+		if !finite(xi) {
+			checkFinite(v, index(field, i), xi)
 			ok = false
 			continue
 		}
 		if xi < 0 {
-			v.add(f, "mole fraction must not be negative, got %g", xi)
+			v.add(index(field, i), "mole fraction must not be negative, got %g", xi)
 			ok = false
 			continue
 		}
@@ -147,8 +150,8 @@ func solverOptions(v *violations, field string, o *fugadv1.SolverOptions) {
 	if t := o.GetTolerance(); t != 0 {
 		checkRange(v, fieldPath(field, "tolerance"), t, minTolerance, maxTolerance, "")
 	}
-	if m := o.GetMaxIterations(); m > maxIterationCap {
-		v.add(fieldPath(field, "max_iterations"), "must be at most %d, got %d", maxIterationCap, m)
+	if m := o.GetMaxIterations(); m != 0 && (m < minIterationCap || m > maxIterationCap) {
+		v.add(fieldPath(field, "max_iterations"), "must be 0 (the solver's default) or within [%d, %d], got %d", minIterationCap, maxIterationCap, m)
 	}
 }
 

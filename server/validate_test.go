@@ -179,6 +179,10 @@ func TestBadRequests(t *testing.T) {
 		{"flash warm start K zero", flash(func(r *fugadv1.FlashRequest) { r.State.WarmStart = &fugadv1.WarmStart{KValues: []float64{2, 0, 0.5}} }), inv, "state.warm_start.k_values[1]"},
 		{"flash tolerance too loose", flash(func(r *fugadv1.FlashRequest) { r.Options = &fugadv1.SolverOptions{Tolerance: 0.1} }), inv, "options.tolerance"},
 		{"flash max iterations", flash(func(r *fugadv1.FlashRequest) { r.Options = &fugadv1.SolverOptions{MaxIterations: 1e6} }), inv, "options.max_iterations"},
+		{"flash max iterations below the floor", flash(func(r *fugadv1.FlashRequest) { r.Options = &fugadv1.SolverOptions{MaxIterations: 9} }), inv, "options.max_iterations"},
+		{"flash warm start phase composition", flash(func(r *fugadv1.FlashRequest) {
+			r.State.WarmStart = &fugadv1.WarmStart{Phases: []*fugadv1.PhaseEstimate{{Amount: 0.5, MoleFractions: []float64{0.5, 0.5}}}}
+		}), inv, "state.warm_start.phases[0].mole_fractions"},
 		{"batch no states", batch(func(r *fugadv1.FlashBatchRequest) { r.States = nil }), inv, "states"},
 		{"batch over limit", batch(func(r *fugadv1.FlashBatchRequest) {
 			r.States = []*fugadv1.FlashState{tpState(200, 1e6), tpState(200, 1e6), tpState(200, 1e6), tpState(200, 1e6)}
@@ -261,15 +265,24 @@ func TestCompositionNormalised(t *testing.T) {
 	}
 }
 
-// TestUnimplementedValidatesFirst checks that the endpoints without a
-// solver reject bad input with INVALID_ARGUMENT and answer good input with
-// UNIMPLEMENTED (never invented numbers).
+// phState is a P–H state of the test gas, a specification without a
+// solver in this build.
+func phState() *fugadv1.FlashState {
+	return &fugadv1.FlashState{MoleFractions: gasX, Specification: &fugadv1.FlashState_Ph{Ph: &fugadv1.PressureEnthalpy{PressurePa: 4e6, MolarEnthalpyJPerMol: -80000}}}
+}
+
+// TestUnimplementedValidatesFirst checks that the endpoints and
+// specifications without a solver reject bad input with INVALID_ARGUMENT
+// and answer good input with UNIMPLEMENTED (never invented numbers).
 func TestUnimplementedValidatesFirst(t *testing.T) {
 	e := newEnv(t, envOptions{})
 	ctx := testCtx(t)
 	c := e.client
 	good := map[string]func() error{
-		"Flash":           func() error { _, err := c.Flash(ctx, flashReq()); return err },
+		"Flash": func() error {
+			_, err := c.Flash(ctx, &fugadv1.FlashRequest{Fluid: gasFluid(), State: phState()})
+			return err
+		},
 		"SaturationPoint": func() error { _, err := c.SaturationPoint(ctx, satReq()); return err },
 		"PhaseEnvelope":   func() error { _, err := c.PhaseEnvelope(ctx, envReq()); return err },
 	}
@@ -286,11 +299,10 @@ func TestUnimplementedValidatesFirst(t *testing.T) {
 	wantViolation(t, err, codes.InvalidArgument, "state.tp.pressure_pa")
 
 	// A batch: the call succeeds, each item carries its own status; the bad
-	// state gets INVALID_ARGUMENT naming states[1], the good ones
+	// state gets INVALID_ARGUMENT naming states[1], the good ones (P–H)
 	// UNIMPLEMENTED.
 	br := batchReq()
-	br.States = append(br.States, tpState(240, 4e6))
-	br.States[1].GetTp().TemperatureK = math.Inf(1)
+	br.States = []*fugadv1.FlashState{phState(), tpState(math.Inf(1), 4e6), phState()}
 	resp, err := c.FlashBatch(ctx, br)
 	if err != nil {
 		t.Fatal(err)

@@ -78,6 +78,7 @@ func parseConfig(args []string, getenv func(string) string, stderr io.Writer) (*
 	fs.BoolVar(&c.Server.Cache.Disabled, "disable-cache", false, "turn the result and compiled-fluid caches off")
 	fs.IntVar(&c.Server.Cache.ResultEntries, "result-cache-entries", 0, "entries of the result cache (0: the cache's default)")
 	fs.Int64Var(&c.Server.Cache.ResultBytes, "result-cache-bytes", 0, "accounted bytes of the result cache (0: the cache's default)")
+	fs.Float64Var(&c.Server.Cache.Quantization, "cache-quantization", 0, "relative tolerance (at most 1e-3) to which flash inputs are rounded so that nearly equal states share cached results; the solve uses the rounded inputs and every report states it (0: off, exact keys)")
 	fs.BoolVar(&c.Version, "version", false, "print the version and exit")
 	fs.Usage = func() {
 		fmt.Fprintf(fs.Output(), "Usage: fugad [flags]\n\nServes the fugad phase-behaviour API. Each flag falls back to the environment variable FUGAD_<FLAG> (upper case, '-' as '_').\n\n")
@@ -219,6 +220,7 @@ func run(c *config) error {
 		zap.Bool("cache_disabled", eff.Cache.Disabled),
 		zap.Int("result_cache_entries", eff.Cache.ResultEntries),
 		zap.Int64("result_cache_bytes", eff.Cache.ResultBytes),
+		zap.Float64("cache_quantization", eff.Cache.Quantization),
 		zap.String("data_version", eff.DataVersion),
 		zap.String("model_version", eff.ModelVersion),
 	)

@@ -26,7 +26,9 @@ const (
 // estimate the solver reached, which is not an answer.
 type NotConvergedDetail struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
-	// Residual of the best estimate, units of SolverOptions.tolerance.
+	// Residual of the best estimate, units of SolverOptions.tolerance. When
+	// the solver found no estimate with a finite residual (no phase split
+	// at all), the largest finite double, 1.7976931348623157e308.
 	Residual float64 `protobuf:"fixed64,1,opt,name=residual,proto3" json:"residual,omitempty"`
 	// Tolerance that was not met.
 	Tolerance float64 `protobuf:"fixed64,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`

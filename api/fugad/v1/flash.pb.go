@@ -700,7 +700,8 @@ type FlashResult struct {
 	TemperatureK float64 `protobuf:"fixed64,1,opt,name=temperature_k,json=temperatureK,proto3" json:"temperature_k,omitempty"`
 	// Pressure of the equilibrium state, Pa (specified or solved for).
 	PressurePa float64 `protobuf:"fixed64,2,opt,name=pressure_pa,json=pressurePa,proto3" json:"pressure_pa,omitempty"`
-	// Phases present, vapour first, then liquids by increasing density.
+	// Phases present: the vapour first (if any), then the liquids by
+	// decreasing molar volume, then the aqueous phase (if any).
 	Phases []*Phase `protobuf:"bytes,3,rep,name=phases,proto3" json:"phases,omitempty"`
 	// Overall vapour amount as a mole fraction of the feed, within [0, 1].
 	VapourFraction float64 `protobuf:"fixed64,4,opt,name=vapour_fraction,json=vapourFraction,proto3" json:"vapour_fraction,omitempty"`
@@ -1128,9 +1129,21 @@ type FlashStreamRequest struct {
 	// Skip the result cache for this message.
 	BypassCache bool `protobuf:"varint,5,opt,name=bypass_cache,json=bypassCache,proto3" json:"bypass_cache,omitempty"`
 	// Caller's sequence number, echoed in the response. Free to use.
-	Sequence      uint64 `protobuf:"varint,6,opt,name=sequence,proto3" json:"sequence,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Sequence uint64 `protobuf:"varint,6,opt,name=sequence,proto3" json:"sequence,omitempty"`
+	// Implicit warm start. A message whose state carries no warm_start is
+	// started from the warm_start of the stream's most recent successful
+	// result for the current fluid (none after the fluid changes), exactly
+	// as if the caller had copied it into state.warm_start; the report's
+	// initial_estimate then says WARM_START or WARM_START_REJECTED. The
+	// answer agrees with a cold start within the solver tolerance, but its
+	// last bits and its report can differ, so the answer of such a message
+	// is that of a unary Flash carrying the same warm_start (and is cached
+	// under that request). Set this to solve the message without it: the
+	// answer is then byte-identical to a unary Flash of the same state and
+	// options, whatever the stream's history.
+	NoImplicitWarmStart bool `protobuf:"varint,7,opt,name=no_implicit_warm_start,json=noImplicitWarmStart,proto3" json:"no_implicit_warm_start,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
 }
 
 func (x *FlashStreamRequest) Reset() {
@@ -1203,6 +1216,13 @@ func (x *FlashStreamRequest) GetSequence() uint64 {
 		return x.Sequence
 	}
 	return 0
+}
+
+func (x *FlashStreamRequest) GetNoImplicitWarmStart() bool {
+	if x != nil {
+		return x.NoImplicitWarmStart
+	}
+	return false
 }
 
 // FlashStreamResponse answers one FlashStreamRequest, in request order.
@@ -1349,14 +1369,15 @@ const file_fugad_v1_flash_proto_rawDesc = "" +
 	"\x06status\x18\x01 \x01(\v2\x12.google.rpc.StatusR\x06status\x12-\n" +
 	"\x06result\x18\x02 \x01(\v2\x15.fugad.v1.FlashResultR\x06result\"D\n" +
 	"\x12FlashBatchResponse\x12.\n" +
-	"\x05items\x18\x01 \x03(\v2\x18.fugad.v1.FlashBatchItemR\x05items\"\x80\x02\n" +
+	"\x05items\x18\x01 \x03(\v2\x18.fugad.v1.FlashBatchItemR\x05items\"\xb5\x02\n" +
 	"\x12FlashStreamRequest\x12%\n" +
 	"\x05fluid\x18\x01 \x01(\v2\x0f.fugad.v1.FluidR\x05fluid\x12%\n" +
 	"\x0emole_fractions\x18\x02 \x03(\x01R\rmoleFractions\x12*\n" +
 	"\x05state\x18\x03 \x01(\v2\x14.fugad.v1.FlashStateR\x05state\x121\n" +
 	"\aoptions\x18\x04 \x01(\v2\x17.fugad.v1.SolverOptionsR\aoptions\x12!\n" +
 	"\fbypass_cache\x18\x05 \x01(\bR\vbypassCache\x12\x1a\n" +
-	"\bsequence\x18\x06 \x01(\x04R\bsequence\"\x8c\x01\n" +
+	"\bsequence\x18\x06 \x01(\x04R\bsequence\x123\n" +
+	"\x16no_implicit_warm_start\x18\a \x01(\bR\x13noImplicitWarmStart\"\x8c\x01\n" +
 	"\x13FlashStreamResponse\x12\x1a\n" +
 	"\bsequence\x18\x01 \x01(\x04R\bsequence\x12*\n" +
 	"\x06status\x18\x02 \x01(\v2\x12.google.rpc.StatusR\x06status\x12-\n" +

@@ -109,7 +109,9 @@ const (
 	InitialEstimate_INITIAL_ESTIMATE_UNSPECIFIED InitialEstimate = 0
 	// Wilson (1969) K-values or the solver's own correlation-based start.
 	InitialEstimate_INITIAL_ESTIMATE_CORRELATION InitialEstimate = 1
-	// The caller's warm start was used.
+	// The caller's warm start was used: the request's own, or in a
+	// FlashStream the implicit one taken from the stream's previous result
+	// (see FlashStreamRequest.no_implicit_warm_start).
 	InitialEstimate_INITIAL_ESTIMATE_WARM_START InitialEstimate = 2
 	// The caller's warm start was tried and rejected (for example it failed
 	// the stability check), and the solver fell back to full stability
@@ -160,10 +162,13 @@ func (InitialEstimate) EnumDescriptor() ([]byte, []int) {
 	return file_fugad_v1_solver_proto_rawDescGZIP(), []int{1}
 }
 
-// PhaseLabel classifies a phase by a documented rule: the phase with the
-// largest molar volume of a multiphase result, or a single phase above its
-// pseudo-critical temperature (Li's rule), is VAPOUR; a liquid whose
-// largest mole fraction is water is AQUEOUS; any other liquid is LIQUID.
+// PhaseLabel classifies a phase by a documented rule: a phase whose water
+// mole fraction exceeds 0.5 is AQUEOUS; of the other phases, the one of
+// largest molar volume is VAPOUR when it is less dense than the model's
+// critical fluid of the same co-volume (v/b > Zc/Ωb: 3.951 for the
+// Peng–Robinson models, 3.847 for SRK), and every other phase is LIQUID.
+// A supercritical single phase is therefore VAPOUR or LIQUID by its
+// density.
 type PhaseLabel int32
 
 const (
@@ -231,7 +236,8 @@ type SolverOptions struct {
 	// converged answer by accident.
 	Tolerance float64 `protobuf:"fixed64,1,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	// Cap on the iterations of each solver stage. Zero selects the solver's
-	// default; at most 10000.
+	// default (200 for the T–P flash); otherwise within [10, 10000], since a
+	// smaller cap cannot converge even an easy state.
 	MaxIterations uint32 `protobuf:"varint,2,opt,name=max_iterations,json=maxIterations,proto3" json:"max_iterations,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -371,9 +377,17 @@ type SolverReport struct {
 	// Version of the component data bank, as in ListComponentsResponse.
 	DataVersion string `protobuf:"bytes,9,opt,name=data_version,json=dataVersion,proto3" json:"data_version,omitempty"`
 	// Version of the models and solvers, as in ListModelsResponse.
-	ModelVersion  string `protobuf:"bytes,10,opt,name=model_version,json=modelVersion,proto3" json:"model_version,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	ModelVersion string `protobuf:"bytes,10,opt,name=model_version,json=modelVersion,proto3" json:"model_version,omitempty"`
+	// Relative tolerance with which the server quantised the request's
+	// floating-point inputs before solving (its result-cache quantisation
+	// option); zero when it did not. When non-zero, the result is exact for
+	// inputs that differ from the sent ones by up to this fraction of each
+	// value (the temperature_k and pressure_pa of a FlashResult are the
+	// values actually solved for), which lets nearly equal requests share a
+	// cached result.
+	InputQuantizationRelativeTolerance float64 `protobuf:"fixed64,11,opt,name=input_quantization_relative_tolerance,json=inputQuantizationRelativeTolerance,proto3" json:"input_quantization_relative_tolerance,omitempty"`
+	unknownFields                      protoimpl.UnknownFields
+	sizeCache                          protoimpl.SizeCache
 }
 
 func (x *SolverReport) Reset() {
@@ -474,6 +488,13 @@ func (x *SolverReport) GetModelVersion() string {
 		return x.ModelVersion
 	}
 	return ""
+}
+
+func (x *SolverReport) GetInputQuantizationRelativeTolerance() float64 {
+	if x != nil {
+		return x.InputQuantizationRelativeTolerance
+	}
+	return 0
 }
 
 // PhaseEstimate is one phase of a warm start.
@@ -645,7 +666,8 @@ type Properties struct {
 	MolarInternalEnergyJPerMol float64 `protobuf:"fixed64,9,opt,name=molar_internal_energy_j_per_mol,json=molarInternalEnergyJPerMol,proto3" json:"molar_internal_energy_j_per_mol,omitempty"`
 	// Isobaric molar heat capacity Cp, J/(mol·K). Absent for the overall
 	// properties of a multiphase result, where the single-phase derivative
-	// is not defined.
+	// is not defined, and wherever the model gives no finite value (at a
+	// spinodal, for example).
 	MolarIsobaricHeatCapacityJPerMolK *float64 `protobuf:"fixed64,10,opt,name=molar_isobaric_heat_capacity_j_per_mol_k,json=molarIsobaricHeatCapacityJPerMolK,proto3,oneof" json:"molar_isobaric_heat_capacity_j_per_mol_k,omitempty"`
 	// Isochoric molar heat capacity Cv, J/(mol·K). Absent as for Cp.
 	MolarIsochoricHeatCapacityJPerMolK *float64 `protobuf:"fixed64,11,opt,name=molar_isochoric_heat_capacity_j_per_mol_k,json=molarIsochoricHeatCapacityJPerMolK,proto3,oneof" json:"molar_isochoric_heat_capacity_j_per_mol_k,omitempty"`
@@ -800,7 +822,7 @@ const file_fugad_v1_solver_proto_rawDesc = "" +
 	"\n" +
 	"iterations\x18\x02 \x01(\rR\n" +
 	"iterations\x12\x1c\n" +
-	"\tconverged\x18\x03 \x01(\bR\tconverged\"\xfe\x03\n" +
+	"\tconverged\x18\x03 \x01(\bR\tconverged\"\xd1\x04\n" +
 	"\fSolverReport\x12-\n" +
 	"\x06stages\x18\x01 \x03(\v2\x15.fugad.v1.StageReportR\x06stages\x12D\n" +
 	"\x10initial_estimate\x18\x02 \x01(\x0e2\x19.fugad.v1.InitialEstimateR\x0finitialEstimate\x12,\n" +
@@ -813,7 +835,8 @@ const file_fugad_v1_solver_proto_rawDesc = "" +
 	"from_cache\x18\b \x01(\bR\tfromCache\x12!\n" +
 	"\fdata_version\x18\t \x01(\tR\vdataVersion\x12#\n" +
 	"\rmodel_version\x18\n" +
-	" \x01(\tR\fmodelVersionB!\n" +
+	" \x01(\tR\fmodelVersion\x12Q\n" +
+	"%input_quantization_relative_tolerance\x18\v \x01(\x01R\"inputQuantizationRelativeToleranceB!\n" +
 	"\x1f_minimum_tangent_plane_distance\"z\n" +
 	"\rPhaseEstimate\x12*\n" +
 	"\x05label\x18\x01 \x01(\x0e2\x14.fugad.v1.PhaseLabelR\x05label\x12\x16\n" +

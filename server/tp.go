@@ -1,0 +1,399 @@
+package server
+
+import (
+	"context"
+	"errors"
+	"math"
+	"strings"
+
+	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
+	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/flash"
+)
+
+// flashScratch is one goroutine's memory for the T–P flashes of one
+// compiled fluid: the flash workspace, its result and the buffers that turn
+// a wire warm start into a flash.Estimate. It is pooled per compiled fluid
+// (compiledFluid.getFlash), so a steady stream of flashes of one fluid
+// reuses a few of them and the solver allocates nothing.
+type flashScratch struct {
+	ws   *flash.Workspace
+	res  *flash.Result
+	est  flash.Estimate
+	x    [flash.MaxPhases][]float64
+	beta [flash.MaxPhases]float64
+	lnK  []float64
+}
+
+func newFlashScratch(mx *eos.Mixture) *flashScratch {
+	return &flashScratch{ws: flash.NewWorkspace(mx), res: flash.NewResult(mx), lnK: make([]float64, mx.N())}
+}
+
+// estimate translates a validated wire warm start into a flash.Estimate in
+// sc's buffers: phases (amounts and compositions) when given, else the
+// K-values as a two-phase estimate; nil when w carries neither. The
+// compositions are referenced, not copied (the flash copies its estimate
+// before it writes anything).
+func (sc *flashScratch) estimate(w *fugadv1.WarmStart) *flash.Estimate {
+	if ph := w.GetPhases(); len(ph) > 0 {
+		k := min(len(ph), flash.MaxPhases)
+		for j := range k {
+			sc.x[j] = ph[j].GetMoleFractions()
+			sc.beta[j] = ph[j].GetAmount()
+		}
+		sc.est = flash.Estimate{Phases: k, Beta: sc.beta[:k], X: sc.x[:k]}
+		return &sc.est
+	}
+	if kv := w.GetKValues(); len(kv) > 0 && len(kv) == len(sc.lnK) {
+		for i, ki := range kv {
+			sc.lnK[i] = math.Log(ki)
+		}
+		sc.est = flash.Estimate{Phases: 2, LnK: sc.lnK}
+		return &sc.est
+	}
+	return nil
+}
+
+// flashOptions maps the wire solver options onto the T–P flash's; zero
+// values select the flash's defaults on both sides.
+func flashOptions(o *fugadv1.SolverOptions) flash.Options {
+	return flash.Options{Tolerance: o.GetTolerance(), MaxIterations: int(o.GetMaxIterations())}
+}
+
+// solveTP is the translation of a T–P flash onto flash.Workspace.PT: the
+// job's temperature, pressure, composition, options and warm start in,
+// a FlashResult out. Non-convergence becomes ABORTED/NOT_CONVERGED with the
+// best estimate in a NotConvergedDetail; the end of ctx stops the flash
+// inside its iterations and becomes DEADLINE_EXCEEDED or CANCELLED.
+func (s *Server) solveTP(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
+	cf := job.fluid
+	sc := cf.getFlash()
+	defer cf.putFlash(sc)
+	T, P := job.a, job.b
+	opts := flashOptions(job.opts)
+	if s.flashOptionsHook != nil {
+		s.flashOptionsHook(&opts)
+	}
+	if err := sc.ws.PT(ctx, T, P, job.x, opts, sc.estimate(job.warm), sc.res); err != nil {
+		var ce *flash.ConvergenceError
+		if errors.As(err, &ce) {
+			return nil, s.flashNotConverged(ce, sc.res, T, P, opts, job)
+		}
+		return nil, s.flashError(err, job)
+	}
+	res := s.flashResult(sc.res, s.flashReport(&sc.res.Report, job.quant), true)
+	if res == nil {
+		return nil, errInternal("the flash produced a non-finite number")
+	}
+	return res, nil
+}
+
+// wireLabel maps a flash phase label to the wire enum.
+func wireLabel(l flash.Label) fugadv1.PhaseLabel {
+	switch l {
+	case flash.LabelVapour:
+		return fugadv1.PhaseLabel_PHASE_LABEL_VAPOUR
+	case flash.LabelLiquid:
+		return fugadv1.PhaseLabel_PHASE_LABEL_LIQUID
+	case flash.LabelAqueous:
+		return fugadv1.PhaseLabel_PHASE_LABEL_AQUEOUS
+	}
+	return fugadv1.PhaseLabel_PHASE_LABEL_UNSPECIFIED
+}
+
+// wireInitialEstimate maps the flash's path to the wire enum.
+func wireInitialEstimate(p flash.Path) fugadv1.InitialEstimate {
+	switch p {
+	case flash.PathWarm:
+		return fugadv1.InitialEstimate_INITIAL_ESTIMATE_WARM_START
+	case flash.PathWarmFallback:
+		return fugadv1.InitialEstimate_INITIAL_ESTIMATE_WARM_START_REJECTED
+	}
+	return fugadv1.InitialEstimate_INITIAL_ESTIMATE_CORRELATION
+}
+
+// flashReport translates a flash.Report. The flash counts its work by
+// stage but does not time-order it, so the stages are listed in the order
+// a cold flash first enters them: stability analysis, successive
+// substitution (with its Rachford–Rice solutions), Newton. A stage that did
+// no iteration is left out; each stage's converged flag is the flash's
+// overall verdict, which is the only one it reports.
+func (s *Server) flashReport(r *flash.Report, quant float64) *fugadv1.SolverReport {
+	rep := s.report()
+	counts := [...]struct {
+		stage fugadv1.SolverStage
+		it    int
+		ran   bool
+	}{
+		{fugadv1.SolverStage_SOLVER_STAGE_STABILITY, r.StabilityIterations, r.StabilityTrials > 0},
+		{fugadv1.SolverStage_SOLVER_STAGE_SUCCESSIVE_SUBSTITUTION, r.SSIterations, r.SSIterations > 0},
+		{fugadv1.SolverStage_SOLVER_STAGE_RACHFORD_RICE, r.RRIterations, r.RRIterations > 0},
+		{fugadv1.SolverStage_SOLVER_STAGE_NEWTON, r.NewtonIterations, r.NewtonIterations > 0},
+	}
+	ran := 0
+	for _, c := range counts {
+		if c.ran {
+			ran++
+		}
+	}
+	if ran > 0 {
+		buf := make([]fugadv1.StageReport, ran) // one allocation for all stages
+		rep.Stages = make([]*fugadv1.StageReport, 0, ran)
+		for _, c := range counts {
+			if !c.ran {
+				continue
+			}
+			sr := &buf[len(rep.Stages)]
+			sr.Stage, sr.Iterations, sr.Converged = c.stage, uint32(c.it), r.Converged
+			rep.Stages = append(rep.Stages, sr)
+		}
+	}
+	rep.InitialEstimate = wireInitialEstimate(r.Path)
+	rep.LnPhiEvaluations = uint64(r.LnPhiEvaluations)
+	if finite(r.Residual) {
+		rep.FinalResidual = r.Residual
+	}
+	if r.StabilityTrials > 0 && finite(r.MinTPD) {
+		tpd := r.MinTPD
+		rep.MinimumTangentPlaneDistance = &tpd
+		rep.StabilityPhaseCount = uint32(r.Phases)
+	}
+	rep.Converged = r.Converged
+	rep.InputQuantizationRelativeTolerance = quant
+	return rep
+}
+
+// optionalProps holds the optional single-phase properties of one
+// Properties message, so that their pointers share one allocation.
+type optionalProps [5]float64
+
+// wireProperties translates the properties of one phase. The optional
+// derivative properties are left absent where the model gives no finite
+// value; a non-finite required value makes ok false.
+func wireProperties(p *eos.Properties, dst *fugadv1.Properties, opt *optionalProps) (ok bool) {
+	dst.CompressibilityFactor = p.Z
+	dst.MolarVolumeM3PerMol = p.MolarVolume
+	dst.MolarDensityMolPerM3 = p.MolarDensity
+	dst.MassDensityKgPerM3 = p.MassDensity
+	dst.MolarMassKgPerMol = p.MolarMass
+	dst.MolarEnthalpyJPerMol = p.H
+	dst.MolarEntropyJPerMolK = p.S
+	dst.MolarGibbsEnergyJPerMol = p.G
+	dst.MolarInternalEnergyJPerMol = p.U
+	*opt = optionalProps{p.Cp, p.Cv, p.SpeedOfSound, p.JouleThomson, p.Compressivity}
+	ptrs := [...]**float64{
+		&dst.MolarIsobaricHeatCapacityJPerMolK, &dst.MolarIsochoricHeatCapacityJPerMolK,
+		&dst.SpeedOfSoundMPerS, &dst.JouleThomsonCoefficientKPerPa, &dst.IsothermalCompressibilityPerPa,
+	}
+	for i, ptr := range ptrs {
+		if finite(opt[i]) {
+			*ptr = &opt[i]
+		}
+	}
+	for _, v := range [...]float64{p.Z, p.MolarVolume, p.MolarDensity, p.MassDensity, p.MolarMass, p.H, p.S, p.G, p.U} {
+		if !finite(v) {
+			return false
+		}
+	}
+	return true
+}
+
+// flashResult translates a flash.Result. With props the phase and overall
+// properties are included (a converged result); without, they are left
+// out (the best estimate of a failed flash, for which the flash computes
+// none). The overall properties of a single phase are those of the phase;
+// of several phases they are the flash's amount-weighted sums, with
+// Z = P·v/(R·T) and no heat capacities or other derivatives. It returns nil
+// when a number is not finite, which a validated request never causes.
+//
+// All float slices of the result share one allocation, as do the phases'
+// messages, to keep the server's share of a flash small.
+func (s *Server) flashResult(r *flash.Result, rep *fugadv1.SolverReport, props bool) *fugadv1.FlashResult {
+	m, n := len(r.Phases), len(r.Z)
+	multi := m >= 2
+	floats := 2 * m * n // compositions and ln φ
+	if multi {
+		floats += n // K-values
+	}
+	fbuf := make([]float64, 0, floats)
+	take := func(src []float64) []float64 {
+		start := len(fbuf)
+		fbuf = append(fbuf, src...)
+		return fbuf[start:len(fbuf):len(fbuf)]
+	}
+	out := &fugadv1.FlashResult{TemperatureK: r.T, PressurePa: r.P, Report: rep}
+	phases := make([]fugadv1.Phase, m)
+	estimates := make([]fugadv1.PhaseEstimate, m)
+	out.Phases = make([]*fugadv1.Phase, m)
+	ws := &fugadv1.WarmStart{Phases: make([]*fugadv1.PhaseEstimate, m)}
+	var propBuf []fugadv1.Properties
+	var optBuf []optionalProps
+	if props {
+		propBuf = make([]fugadv1.Properties, m+1)
+		optBuf = make([]optionalProps, m+1)
+	}
+	ok := true
+	for k := range r.Phases {
+		p := &r.Phases[k]
+		ph := &phases[k]
+		ph.Label = wireLabel(p.Label)
+		ph.Amount = p.Beta
+		ph.MoleFractions = take(p.X)
+		ph.LnFugacityCoefficients = take(p.LnPhi)
+		if props {
+			ok = wireProperties(&p.Props, &propBuf[k], &optBuf[k]) && ok
+			ph.Properties = &propBuf[k]
+		}
+		out.Phases[k] = ph
+		if p.Label == flash.LabelVapour {
+			out.VapourFraction = p.Beta
+		}
+		e := &estimates[k]
+		e.Label, e.Amount, e.MoleFractions = ph.Label, ph.Amount, ph.MoleFractions
+		ws.Phases[k] = e
+		ok = ok && finite(p.Beta) && allFinite(p.X) && allFinite(p.LnPhi)
+	}
+	out.WarmStart = ws
+	if multi {
+		kv := take(r.LnK)
+		for i, l := range kv {
+			kv[i] = math.Exp(l)
+		}
+		out.KValues = kv
+		ok = ok && allFinite(kv)
+	}
+	if props {
+		ov := &propBuf[m]
+		if m == 1 {
+			ok = wireProperties(&r.Phases[0].Props, ov, &optBuf[m]) && ok
+		} else {
+			o := &r.Overall
+			ov.CompressibilityFactor = r.P * o.MolarVolume / (eos.R * r.T)
+			ov.MolarVolumeM3PerMol = o.MolarVolume
+			ov.MolarDensityMolPerM3 = o.MolarDensity
+			ov.MassDensityKgPerM3 = o.MassDensity
+			ov.MolarMassKgPerMol = o.MolarMass
+			ov.MolarEnthalpyJPerMol = o.H
+			ov.MolarEntropyJPerMolK = o.S
+			ov.MolarGibbsEnergyJPerMol = o.G
+			ov.MolarInternalEnergyJPerMol = o.U
+			ok = ok && allFinite([]float64{ov.CompressibilityFactor, o.MolarVolume, o.MolarDensity, o.MassDensity, o.MolarMass, o.H, o.S, o.G, o.U})
+		}
+		out.Overall = ov
+	}
+	if !ok || !finite(r.T) || !finite(r.P) {
+		return nil
+	}
+	return out
+}
+
+func allFinite(xs []float64) bool {
+	for _, x := range xs {
+		if !finite(x) {
+			return false
+		}
+	}
+	return true
+}
+
+// noFiniteResidual is the NotConvergedDetail.residual of a solver that
+// found no estimate with a finite residual, as documented in the contract.
+const noFiniteResidual = math.MaxFloat64
+
+// flashNotConverged builds the ABORTED/NOT_CONVERGED status of a failed T–P
+// flash: the best estimate the flash left in r (phases without
+// properties), its residual and the report, in a NotConvergedDetail; and
+// counts it.
+func (s *Server) flashNotConverged(ce *flash.ConvergenceError, r *flash.Result, T, P float64, opts flash.Options, job *flashJob) error {
+	s.metrics.nonConverged.WithLabelValues(ReasonNotConverged, failedStage(ce.Stage)).Inc()
+	rep := s.flashReport(&r.Report, job.quant)
+	rep.Converged = false
+	resid := ce.Residual
+	if !finite(resid) {
+		resid = noFiniteResidual
+		rep.FinalResidual = 0
+	} else {
+		rep.FinalResidual = resid
+	}
+	tol := opts.Tolerance
+	if tol == 0 {
+		tol = defaultFlashTolerance
+	}
+	d := &fugadv1.NotConvergedDetail{Residual: resid, Tolerance: tol, Report: rep}
+	// The flash leaves its best estimate in r; the state check guards
+	// against reporting a pooled result of another state.
+	if math.Float64bits(r.T) == math.Float64bits(T) && math.Float64bits(r.P) == math.Float64bits(P) {
+		if best := s.flashResult(r, rep, false); best != nil {
+			best.WarmStart = nil // not a start worth copying
+			d.BestEstimate = &fugadv1.NotConvergedDetail_Flash{Flash: best}
+		}
+	}
+	return notConverged("T–P flash: "+ce.Stage, ce.Iterations, resid, d)
+}
+
+// defaultFlashTolerance is flash.Options.Tolerance's default, reported in
+// a NotConvergedDetail when the request left the tolerance at zero.
+const defaultFlashTolerance = 1e-10
+
+// failedStage is the metric label of the stage a solver failed in: a
+// fixed, small set, so that a new message in a solver cannot grow the
+// label's cardinality.
+func failedStage(stage string) string {
+	switch {
+	case strings.Contains(stage, "three-phase"):
+		return "three_phase_split"
+	case strings.Contains(stage, "stability"):
+		return "stability"
+	case strings.Contains(stage, "split"):
+		return "phase_split"
+	}
+	return "other"
+}
+
+// flashFields maps the argument names of flash.InputError onto the wire
+// fields of a FlashState (prefix "state" or "states[i]") or of the
+// request's options.
+var flashFields = map[string]string{
+	"T":                  "tp.temperature_k",
+	"P":                  "tp.pressure_pa",
+	"z":                  "mole_fractions",
+	"warm.X":             "warm_start.phases",
+	"warm.Beta":          "warm_start.phases",
+	"warm.LnK":           "warm_start.k_values",
+	"warm.Phases":        "warm_start.phases",
+	"opts.Tolerance":     "options.tolerance",
+	"opts.MaxIterations": "options.max_iterations",
+}
+
+// flashError maps an error of the flash (other than non-convergence) to a
+// status: input errors that validation did not foresee are
+// INVALID_ARGUMENT naming the field, the end of the context keeps its code
+// (and is counted as stopped work), anything else is a defect.
+func (s *Server) flashError(err error, job *flashJob) error {
+	var ie *flash.InputError
+	switch {
+	case errors.As(err, &ie):
+		name := ie.Field
+		if i := strings.IndexAny(name, "["); i >= 0 {
+			name = name[:i]
+		}
+		f, ok := flashFields[name]
+		var v violations
+		switch {
+		case ok && strings.HasPrefix(f, "options."):
+			v.add(f, "%s (value %g)", ie.Reason, ie.Value)
+		case ok:
+			v.add(fieldPath(job.field, f), "%s (value %g)", ie.Reason, ie.Value)
+		default:
+			v.add(job.field, "%s: %s (value %g)", ie.Field, ie.Reason, ie.Value)
+		}
+		return v.err()
+	case errors.Is(err, context.DeadlineExceeded):
+		s.metrics.stopped.WithLabelValues("deadline_exceeded").Inc()
+		return ctxErr(err)
+	case errors.Is(err, context.Canceled):
+		s.metrics.stopped.WithLabelValues("cancelled").Inc()
+		return ctxErr(err)
+	}
+	return s.solverError(err, job.field)
+}
