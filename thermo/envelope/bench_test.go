@@ -19,35 +19,50 @@ func gas30(b testing.TB) (*eos.Mixture, []float64) {
 	return mixture(b, eos.PR78, lookup(b, ids...), eos.Options{}), z
 }
 
-func benchmarkEnvelope(b *testing.B, mx *eos.Mixture, z []float64) {
+func benchmarkEnvelope(b *testing.B, mx *eos.Mixture, z []float64, o EnvelopeOptions) {
 	s := newSolver(b, mx)
-	env, err := s.Envelope(bg, z, EnvelopeOptions{})
+	env, err := s.Envelope(bg, z, o)
 	if err != nil || !env.Closed() {
 		b.Fatal(err, env.Report.Stop)
 	}
 	b.ReportAllocs()
 	for b.Loop() {
-		if _, err := s.Envelope(bg, z, EnvelopeOptions{}); err != nil {
+		if _, err := s.Envelope(bg, z, o); err != nil {
 			b.Fatal(err)
 		}
 	}
 	b.ReportMetric(float64(len(env.Points)), "points")
 	b.ReportMetric(float64(env.Report.LnPhiEvaluations), "lnphi/op")
+	b.ReportMetric(float64(env.Report.StabilityEvaluations), "stab-lnphi/op")
 }
 
 func BenchmarkEnvelope10(b *testing.B) {
 	f := streams(b)[0]
-	benchmarkEnvelope(b, f.mx, f.z)
+	benchmarkEnvelope(b, f.mx, f.z, EnvelopeOptions{})
+}
+
+// BenchmarkEnvelope10NoStability is the same trace without the
+// third-phase test, to measure what the test costs.
+func BenchmarkEnvelope10NoStability(b *testing.B) {
+	f := streams(b)[0]
+	benchmarkEnvelope(b, f.mx, f.z, EnvelopeOptions{NoStabilityCheck: true})
+}
+
+// BenchmarkEnvelopeCO2Rich6 is the CO2-rich stream, 45 of whose points are
+// metastable.
+func BenchmarkEnvelopeCO2Rich6(b *testing.B) {
+	f := streams(b)[2]
+	benchmarkEnvelope(b, f.mx, f.z, EnvelopeOptions{})
 }
 
 func BenchmarkEnvelopeCondensate11(b *testing.B) {
 	f := streams(b)[1]
-	benchmarkEnvelope(b, f.mx, f.z)
+	benchmarkEnvelope(b, f.mx, f.z, EnvelopeOptions{})
 }
 
 func BenchmarkEnvelope30(b *testing.B) {
 	mx, z := gas30(b)
-	benchmarkEnvelope(b, mx, z)
+	benchmarkEnvelope(b, mx, z, EnvelopeOptions{})
 }
 
 func benchmarkSaturation(b *testing.B, dew bool) {

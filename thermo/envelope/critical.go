@@ -12,12 +12,12 @@ import (
 // defaults.
 type CriticalOptions struct {
 	// MinVolumeRatio and MaxVolumeRatio bound the search in κ = v/b (molar
-	// volume over the mixture co-volume b = Σ z_i b_i). Defaults 1.5 and
-	// 12; the cubic's own critical point lies at κ ≈ 3.95 (PR) or 3.85
-	// (SRK).
+	// volume over the mixture co-volume b = Σ z_i b_i). Defaults 1.2 and
+	// 20, which take in liquid-like critical points (κ near 1.5) as well as
+	// the cubic's own critical point at κ ≈ 3.95 (PR) or 3.85 (SRK).
 	MinVolumeRatio, MaxVolumeRatio float64
 	// GridPoints is the number of κ values (log-spaced) scanned for sign
-	// changes of the cubic form; default 24.
+	// changes of the cubic form; default 30 (steps of about 10 % in κ).
 	GridPoints int
 }
 
@@ -84,7 +84,7 @@ func (s *Solver) CriticalPoints(ctx context.Context, z []float64, opts CriticalO
 	if err := s.setFeed(z); err != nil {
 		return nil, err
 	}
-	lo, hi, ng := 1.5, 12.0, 24
+	lo, hi, ng := 1.2, 20.0, 30
 	if opts.MinVolumeRatio != 0 {
 		lo = opts.MinVolumeRatio
 	}

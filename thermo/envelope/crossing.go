@@ -17,7 +17,7 @@ import (
 // why, with the envelope's cricondentherm and cricondenbar.
 func (s *Solver) fromEnvelope(ctx context.Context, sp satSpec, h Hint, out *Point) error {
 	n := s.n
-	eo := EnvelopeOptions{StartPressure: 1e4}
+	eo := EnvelopeOptions{StartPressure: 1e4, NoStabilityCheck: true}
 	if !sp.fixT {
 		eo.StartPressure = math.Max(1e2, math.Min(1e5, sp.value/2))
 	}

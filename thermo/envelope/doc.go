@@ -94,6 +94,33 @@
 // saturation temperature at StartPressure to the critical point, which
 // every cubic of thermo/eos reproduces exactly (Tc, Pc of the input).
 //
+// # Metastable points
+//
+// A traced two-phase boundary is the boundary of the equilibrium system
+// only where the feed, at that (T, P), is stable against every phase other
+// than the incipient one. Where it is not (a feed that splits into two
+// liquids, such as a CO2-rich stream with methane and nitrogen below about
+// 160 K), the vapour–liquid boundary still solves the equations above but
+// lies inside a two- or three-phase region: a T–P flash just outside it
+// finds two liquids, and the true phase boundary is a three-phase line
+// this package does not trace. Envelope therefore gives every point of the
+// phase envelope a verdict (EnvelopePoint.Checked, Metastable, TPD,
+// ThirdPhase; the count and the T, P range in EnvelopeReport). The test is
+// Michelsen's (1982) tangent-plane criterion on the feed at the point: the
+// plane that touches the Gibbs surface at the feed touches it at the
+// incipient phase too, and the point is metastable when a trial phase lies
+// below it (tpd < −1e-8). The trials are Wilson's liquid- and vapour-like
+// compositions from the feed, a liquid-like one from the incipient phase,
+// pure-component-like trials of water, alcohols and glycols, and the
+// stationary point carried from the neighbouring point; trials that fall
+// back onto the feed or the incipient phase end early. The full set runs
+// at the ends and every 0.3 in Σ|Δln T| + |Δln P| along the envelope, the
+// carried trial at every point, and a third phase found by a full test is
+// carried backward to the previous one. The verdict agrees with the
+// stability test of thermo/flash at every point of the test streams (see
+// TestFlashConsistency). EnvelopeOptions.NoStabilityCheck skips it. Quality
+// lines and saturation points solved alone are not tested.
+//
 // # Critical points
 //
 // CriticalPoints solves the Heidemann & Khalil (1980) conditions in the
@@ -137,6 +164,11 @@
 //   - Michelsen, M.L.: Calculation of critical points and phase
 //     boundaries in the critical region. Fluid Phase Equilib. 16, 57–76
 //     (1984).
+//   - Michelsen, M.L.: The isothermal flash problem. Part I. Stability.
+//     Fluid Phase Equilib. 9, 1–19 (1982).
+//   - Crowe, A.M., Nishio, M.: Convergence promotion in the simulation of
+//     chemical processes — the general dominant eigenvalue method. AIChE
+//     J. 21(3), 528–533 (1975).
 //   - Wilson, G.M.: A modified Redlich–Kwong equation of state,
 //     application to general physical data calculations. AIChE 65th
 //     National Meeting, Cleveland, paper 15C (1969).

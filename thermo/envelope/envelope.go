@@ -33,6 +33,11 @@ type EnvelopeOptions struct {
 	// Qualities lists vapour fractions in (0, 1) whose quality lines are
 	// traced as well, from StartPressure to the critical point.
 	Qualities []float64
+	// NoStabilityCheck skips the third-phase test of the envelope's points
+	// (EnvelopePoint.Checked stays false). The test costs about as much as
+	// the trace itself; skip it only where the feed is known to form no
+	// second liquid.
+	NoStabilityCheck bool
 }
 
 type envSettings struct {
@@ -104,6 +109,25 @@ type EnvelopePoint struct {
 	// Spec is the index of the specified variable: 0..n−1 for ln K_i, n
 	// for ln T, n+1 for ln P.
 	Spec int
+	// Checked says the point had the third-phase test (points of the
+	// phase envelope unless EnvelopeOptions.NoStabilityCheck; not the
+	// points of quality lines).
+	Checked bool
+	// Metastable is true when the feed at (T, P) is unstable against a
+	// phase other than the incipient one (for example a second liquid): the
+	// two-phase boundary traced here is then not the phase boundary of the
+	// equilibrium system, and a T–P flash just outside it finds two (or
+	// three) phases. See the package documentation, "Metastable points".
+	Metastable bool
+	// TPD is the smallest tangent-plane distance of the feed at (T, P)
+	// found by the third-phase test away from the feed and the incipient
+	// phase: negative where Metastable, zero when every trial fell back onto
+	// one of the two, small and positive next to the point where a third
+	// phase appears.
+	TPD float64
+	// ThirdPhase is the trial composition of TPD at a metastable point
+	// (mole fractions; nil elsewhere).
+	ThirdPhase []float64
 }
 
 // CriticalPoint is a critical point located on a traced envelope.
@@ -179,6 +203,16 @@ type EnvelopeReport struct {
 	// StepCuts counts steps halved after a failed Newton solve; Failures
 	// counts failed Newton solves (every cut follows one).
 	StepCuts, Failures int
+	// Metastable counts the points of the line the third-phase test found
+	// metastable, and MetastableTMin … MetastablePMax span their
+	// temperatures (K) and pressures (Pa); all zero when there are none.
+	Metastable                     int
+	MetastableTMin, MetastableTMax float64
+	MetastablePMin, MetastablePMax float64
+	// StabilityTrials counts the trial phases of the third-phase test and
+	// StabilityEvaluations its ln φ evaluations (included in
+	// LnPhiEvaluations).
+	StabilityTrials, StabilityEvaluations int
 	// Stop says why the trace ended, Detail adds the numbers, and LastT,
 	// LastP are the last converged point.
 	Stop         StopReason
@@ -255,6 +289,9 @@ func (s *Solver) Envelope(ctx context.Context, z []float64, opts EnvelopeOptions
 	}
 	s.evals = 0
 	err = s.trace(ctx, 1, o, env, &env.Points, &env.Report)
+	if !opts.NoStabilityCheck {
+		s.checkStability(env, env.Points, &env.Report)
+	}
 	if err != nil {
 		return env, err
 	}

@@ -127,6 +127,8 @@ type Solver struct {
 	bX, bS, sA, sB, r1X, r1S, r2X, r2S        []float64
 	// scratch of the critical-point calculation
 	bq, bv, u, dn, w []float64
+	// scratch of the third-phase test
+	stab stabScratch
 }
 
 // NewSolver returns a Solver for mx. Options follow the rules of Options.
@@ -149,6 +151,7 @@ func NewSolver(mx *eos.Mixture, opts Options) (*Solver, error) {
 		curX: v(m), curS: v(m), prvX: v(m), prvS: v(m), tCur: v(m), tNew: v(m), guess: v(m),
 		bX: v(m), bS: v(m), sA: v(m), sB: v(m), r1X: v(m), r1S: v(m), r2X: v(m), r2S: v(m),
 		bq: v(n * n), bv: v(n * n), u: v(n), dn: v(n), w: v(n),
+		stab: newStabScratch(n),
 	}, nil
 }
 
