@@ -102,11 +102,38 @@ func (mx *Mixture) Fugacity(ws *Workspace, T, P float64, x []float64, root RootC
 		return &InputError{Field: "out", Value: float64(len(out.LnPhi)), Reason: "Fugacity not sized for this mixture (use NewFugacity)"}
 	}
 	ws.setT(T)
-	mx.composition(ws, x, want&WantT != 0)
+	mx.composition(ws, x, want&WantT != 0, true)
 	mx.solveZ(ws, T, P, root)
 	mx.residual(ws, false)
 	mx.lnPhi(ws, want, out)
 	return nil
+}
+
+// FugacityTrusted is Fugacity without the checks, for solvers that have
+// validated their state once and then evaluate many compositions of it:
+// ws must be mx's workspace, out made by NewFugacity, T and P inside the
+// domain Fugacity accepts, and x mole fractions (finite, non-negative,
+// summing to one: they are used as they are, not normalised; CheckState
+// validates such a state once). Given anything else its results are
+// undefined. It computes what Fugacity computes, by the same method,
+// except for the rounding of Fugacity's normalisation, and allocates
+// nothing.
+func (mx *Mixture) FugacityTrusted(ws *Workspace, T, P float64, x []float64, root RootChoice, want Want, out *Fugacity) {
+	ws.setT(T)
+	mx.composition(ws, x, want&WantT != 0, false)
+	mx.solveZ(ws, T, P, root)
+	mx.residual(ws, false)
+	mx.lnPhi(ws, want, out)
+}
+
+// PropertiesTrusted is Properties without the checks, under the
+// conditions of FugacityTrusted.
+func (mx *Mixture) PropertiesTrusted(ws *Workspace, T, P float64, x []float64, root RootChoice) Properties {
+	ws.setT(T)
+	mx.composition(ws, x, true, false)
+	mx.solveZ(ws, T, P, root)
+	mx.residual(ws, false)
+	return mx.props(ws)
 }
 
 // Temperatures and pressures an evaluation accepts. They lie far outside
@@ -115,9 +142,13 @@ func (mx *Mixture) Fugacity(ws *Workspace, T, P float64, x []float64, root RootC
 // float64 arithmetic: beyond about 1e60 K, 1e100 Pa or below about
 // 1e-45 K, 1e-150 Pa they overflow or underflow and ln φ comes out NaN or
 // ±Inf.
+// The molar-volume bound of the T–V forms is the volume of the ideal gas
+// at the hottest, most rarefied state (RT/P ≈ 8·10¹⁵ m³/mol), rounded up;
+// beyond about 1e150 m³/mol 1/v² underflows and Cp comes out NaN.
 const (
 	minT, maxT = 1e-3, 1e6  // K
 	minP, maxP = 1e-9, 1e13 // Pa
+	maxV       = 1e20       // m³/mol
 )
 
 // inDomain returns an *InputError unless lo ≤ v ≤ hi; v must already be
@@ -127,6 +158,13 @@ func inDomain(field string, v, lo, hi float64, unit string) error {
 		return &InputError{Field: field, Value: v, Reason: fmt.Sprintf("must lie within [%g, %g] %s", lo, hi, unit)}
 	}
 	return nil
+}
+
+// CheckState returns the *InputError Fugacity would give for the state
+// (T, P, x) and workspace ws, or nil: the validation a solver runs once
+// before it evaluates the state with FugacityTrusted.
+func (mx *Mixture) CheckState(ws *Workspace, T, P float64, x []float64) error {
+	return mx.checkTPX(ws, T, P, x)
 }
 
 // checkTPX validates a state. It is cheap next to the evaluation.
@@ -179,50 +217,86 @@ func itoa(i int) string {
 //
 //	D = Σ_ij x_i x_j a_ij,  D_i = 2Σ_j x_j a_ij,  B = Σ_i x_i b_i,
 //
-// and, with withT, their temperature derivatives.
-func (mx *Mixture) composition(ws *Workspace, x []float64, withT bool) {
+// and, with withT, their temperature derivatives. With norm false x is
+// taken as mole fractions as they are (the trusted entry points).
+func (mx *Mixture) composition(ws *Workspace, x []float64, withT, norm bool) {
 	n := mx.n
 	st := &ws.st
-	s := 0.0
-	for _, v := range x {
-		s += v
+	xs := ws.x[:n]
+	x = x[:n]
+	inv := 1.0
+	if norm {
+		s := 0.0
+		for _, v := range x {
+			s += v
+		}
+		inv = 1 / s
 	}
-	inv := 1 / s
+	b, c, w := mx.b[:n], mx.c[:n], mx.mw[:n]
 	bm, cs, mw := 0.0, 0.0, 0.0
 	for i, v := range x {
 		xi := v * inv
-		ws.x[i] = xi
-		bm += xi * mx.b[i]
-		cs += xi * mx.c[i]
-		mw += xi * mx.mw[i]
+		xs[i] = xi
+		bm += xi * b[i]
+		cs += xi * c[i]
+		mw += xi * w[i]
 	}
-	D, DT, DTT := 0.0, 0.0, 0.0
-	xs := ws.x
-	for i := range n {
-		row := ws.aij[i*n : i*n+n]
-		sum := 0.0
-		for j, a := range row {
-			sum += xs[j] * a
-		}
-		ws.di[i] = 2 * sum
-		D += xs[i] * sum
-	}
+	st.D = symQuad(ws.aij, xs, ws.di[:n])
 	if withT {
-		for i := range n {
-			rowT := ws.aijT[i*n : i*n+n]
-			rowTT := ws.aijTT[i*n : i*n+n]
-			sT, sTT := 0.0, 0.0
-			for j := range n {
-				sT += xs[j] * rowT[j]
-				sTT += xs[j] * rowTT[j]
-			}
-			ws.diT[i] = 2 * sT
-			DT += xs[i] * sT
-			DTT += xs[i] * sTT
-		}
+		st.DT = symQuad(ws.aijT, xs, ws.diT[:n])
+		st.DTT = symQuad(ws.aijTT, xs, ws.diTT[:n])
+	} else {
+		st.DT, st.DTT = 0, 0
 	}
-	st.D, st.DT, st.DTT = D, DT, DTT
 	st.Bm, st.cshift, st.mw = bm, cs, mw
+}
+
+// symQuad sets d_i = 2Σ_j a_ij x_j for the n×n row-major matrix a and
+// returns Σ_ij x_i a_ij x_j. Rows are taken four at a time so that the
+// four sums run in parallel instead of waiting on one chain of additions;
+// the order of summation is fixed, so results are reproducible.
+func symQuad(a, x, d []float64) float64 {
+	n := len(x)
+	a = a[:n*n]
+	d = d[:n]
+	q := 0.0
+	i := 0
+	for ; i+4 <= n; i += 4 {
+		r0 := a[i*n:][:n]
+		r1 := a[(i+1)*n:][:n]
+		r2 := a[(i+2)*n:][:n]
+		r3 := a[(i+3)*n:][:n]
+		var s0, s1, s2, s3 float64
+		for j, xj := range x {
+			s0 += xj * r0[j]
+			s1 += xj * r1[j]
+			s2 += xj * r2[j]
+			s3 += xj * r3[j]
+		}
+		d[i], d[i+1], d[i+2], d[i+3] = 2*s0, 2*s1, 2*s2, 2*s3
+		q += x[i]*s0 + x[i+1]*s1 + x[i+2]*s2 + x[i+3]*s3
+	}
+	for ; i+2 <= n; i += 2 {
+		r0 := a[i*n:][:n]
+		r1 := a[(i+1)*n:][:n]
+		var s0, s1 float64
+		for j, xj := range x {
+			s0 += xj * r0[j]
+			s1 += xj * r1[j]
+		}
+		d[i], d[i+1] = 2*s0, 2*s1
+		q += x[i]*s0 + x[i+1]*s1
+	}
+	if i < n {
+		r0 := a[i*n:][:n]
+		s0 := 0.0
+		for j, xj := range x {
+			s0 += xj * r0[j]
+		}
+		d[i] = 2 * s0
+		q += x[i] * s0
+	}
+	return q
 }
 
 // solveZ finds the compressibility factor of the requested root at T, P

@@ -1,6 +1,7 @@
 package eos
 
 import (
+	"fmt"
 	"math"
 
 	"github.com/fugad/fugad/thermo/component"
@@ -49,7 +50,7 @@ func (mx *Mixture) Properties(ws *Workspace, T, P float64, x []float64, root Roo
 		return Properties{}, err
 	}
 	ws.setT(T)
-	mx.composition(ws, x, true)
+	mx.composition(ws, x, true, true)
 	mx.solveZ(ws, T, P, root)
 	mx.residual(ws, false)
 	return mx.props(ws), nil
@@ -103,11 +104,14 @@ func (mx *Mixture) checkTVX(ws *Workspace, T, v float64, x []float64) error {
 	if err := positive("v", v); err != nil {
 		return err
 	}
+	if v > maxV {
+		return &InputError{Field: "v", Value: v, Reason: fmt.Sprintf("must not exceed %g m³/mol", maxV)}
+	}
 	if err := mx.checkX(x); err != nil {
 		return err
 	}
 	ws.setT(T)
-	mx.composition(ws, x, true)
+	mx.composition(ws, x, true, true)
 	st := &ws.st
 	ve := v + st.cshift
 	if !(ve > st.Bm) {

@@ -83,6 +83,10 @@
 // instead, so an estimate changes the work done, never the answer.
 // Report.Path says "cold", "warm" or "warm-fallback".
 //
+// Workspace.Split runs the same Newton solve from an estimate without the
+// stability test (Report.Path "unverified"), for nested solvers that
+// confirm only their final state with PT (package stateflash).
+//
 // # Aqueous phases
 //
 // When the mixture carries an aqueous interaction-parameter set

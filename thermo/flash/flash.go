@@ -38,6 +38,9 @@ func (ws *Workspace) begin(ctx context.Context, set settings, rep *Report, T, P 
 			ws.lnz[i] = math.Log(ws.z[i])
 		}
 	}
+	if err := ws.mx.CheckState(ws.ews, T, P, ws.z); err != nil {
+		return err
+	}
 	ws.mx.LnWilsonK(T, P, ws.lnKw)
 	ws.setupTrials()
 	ws.m = 0
@@ -84,7 +87,7 @@ func (ws *Workspace) PT(ctx context.Context, T, P float64, z []float64, opts Opt
 	}
 	path := PathCold
 	if warmPhases >= 2 && warmPhases <= set.maxPhases {
-		ok, err := ws.warmSolve(warmPhases, warm)
+		ok, err := ws.warmSolve(warmPhases, warm, true)
 		if err != nil {
 			return err
 		}
@@ -168,9 +171,46 @@ func (ws *Workspace) copyWarm(e *Estimate) (int, error) {
 	return k, nil
 }
 
-// warmSolve converges the split from the estimate and tests the result.
-// It reports false when the estimate does not lead to a stable split.
-func (ws *Workspace) warmSolve(k int, e *Estimate) (bool, error) {
+// Split converges the phase split of feed z at T and P from an estimate
+// of two or three phases, exactly as the warm path of PT does (Newton's
+// method on the Gibbs energy, Michelsen 1982b), and writes it into res
+// with its properties, but does not test the result for stability:
+// Report.Path is PathUnverified. It is the inner step of nested solvers
+// that run many flashes along a path of nearby states and confirm only
+// their final state with PT (package stateflash): such a result may be
+// metastable, and must not be reported as an equilibrium until PT has
+// confirmed it. It reports false, leaving res's phases, compositions and
+// ln K untouched (its Report holds the work done), when there is no
+// estimate of two or more phases or it does not converge to a split with
+// every phase amount in (0, 1). Errors as for PT. It allocates nothing.
+func (ws *Workspace) Split(ctx context.Context, T, P float64, z []float64, opts Options, warm *Estimate, res *Result) (bool, error) {
+	set, err := opts.resolve()
+	if err != nil {
+		return false, err
+	}
+	if res == nil || res.n != ws.n {
+		return false, &InputError{Field: "res", Value: float64(ws.n), Reason: "Result not sized for this mixture (use NewResult)"}
+	}
+	rep := &res.Report
+	*rep = Report{Path: PathUnverified}
+	if err := ws.begin(ctx, set, rep, T, P, z, "z"); err != nil {
+		return false, err
+	}
+	k, err := ws.copyWarm(warm)
+	if err != nil || k < 2 || k > set.maxPhases {
+		return false, err
+	}
+	ok, err := ws.warmSolve(k, warm, false)
+	if err != nil || !ok {
+		return false, err
+	}
+	return true, ws.finish(res, PathUnverified)
+}
+
+// warmSolve converges the split from the estimate and, with verify, tests
+// the result. It reports false when the estimate does not lead to a
+// converged (and, with verify, stable) split.
+func (ws *Workspace) warmSolve(k int, e *Estimate, verify bool) (bool, error) {
 	ws.m = k
 	var st splitStatus
 	var err error
@@ -213,6 +253,9 @@ func (ws *Workspace) warmSolve(k int, e *Estimate) (bool, error) {
 	}
 	if err != nil || st != splitOK {
 		return false, err
+	}
+	if !verify {
+		return true, nil
 	}
 	stable, _, err := ws.resultStable()
 	return stable, err
@@ -383,10 +426,7 @@ func (ws *Workspace) finish(res *Result, path Path) error {
 		if ws.aqueous(ph.X) {
 			mx, ews = ws.aq, ws.aws
 		}
-		pr, err := mx.Properties(ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
-		if err != nil {
-			return err
-		}
+		pr := mx.PropertiesTrusted(ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
 		ph.Props = pr
 		b := ph.Beta
 		o.MolarVolume += b * pr.MolarVolume
@@ -491,7 +531,7 @@ func (ws *Workspace) fill(res *Result, path Path, converged bool) {
 	rep := &res.Report
 	rep.Path = path
 	rep.Phases = m
-	rep.Converged = converged
+	rep.Converged = converged && path != PathUnverified
 	if m >= 2 {
 		rep.Residual = ws.residual()
 	}

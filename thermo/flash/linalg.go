@@ -55,14 +55,16 @@ func cholSolve(l []float64, n int, b []float64) {
 	}
 }
 
-// solveSPD solves h·x = −g for a symmetric matrix h (n×n, row-major),
-// writing x into dx. The system is scaled to unit diagonal (Jacobi
-// scaling); when the scaled matrix is not positive definite a multiple of
-// the identity is added, μ = 1e-8, 1e-6, …, 1e8 (Levenberg–Marquardt shift),
-// which keeps dx a descent direction of a function whose gradient is g.
-// work must hold n·n values and sc n values. It reports false when no
-// shift gives a factorisation (h has a non-finite entry).
+// solveSPD solves h·x = −g for a symmetric matrix h (n×n, row-major, of
+// which only the lower triangle j ≤ i is read), writing x into dx. The
+// system is scaled to unit diagonal (Jacobi scaling); when the scaled
+// matrix is not positive definite a multiple of the identity is added,
+// μ = 1e-8, 1e-6, …, 1e8 (Levenberg–Marquardt shift), which keeps dx a
+// descent direction of a function whose gradient is g. work must hold n·n
+// values and sc n values. It reports false when no shift gives a
+// factorisation (h has a non-finite entry).
 func solveSPD(h []float64, n int, g, dx, work, sc []float64) bool {
+	h, work, sc = h[:n*n], work[:n*n], sc[:n]
 	for i := range n {
 		d := h[i*n+i]
 		if !(d > 0) || math.IsInf(d, 0) {
@@ -76,10 +78,12 @@ func solveSPD(h []float64, n int, g, dx, work, sc []float64) bool {
 	mu := 0.0
 	for range 10 {
 		for i := range n {
-			for j := range n {
-				work[i*n+j] = h[i*n+j] * sc[i] * sc[j]
+			hi, wi := h[i*n:][:i+1], work[i*n:][:i+1]
+			si := sc[i]
+			for j, v := range hi {
+				wi[j] = v * si * sc[j]
 			}
-			work[i*n+i] += mu
+			wi[i] += mu
 		}
 		if cholesky(work, n) {
 			for i := range n {

@@ -44,11 +44,14 @@ const (
 	// trivial or out-of-range split, or failed the stability test) and the
 	// cold path produced the result.
 	PathWarmFallback
+	// PathUnverified: a split converged from the estimate by
+	// Workspace.Split, not tested for stability (PT never returns it).
+	PathUnverified
 )
 
-var pathNames = [...]string{"cold", "warm", "warm-fallback"}
+var pathNames = [...]string{"cold", "warm", "warm-fallback", "unverified"}
 
-// String returns "cold", "warm" or "warm-fallback".
+// String returns "cold", "warm", "warm-fallback" or "unverified".
 func (p Path) String() string {
 	if p < 0 || int(p) >= len(pathNames) {
 		return "unknown"

@@ -514,16 +514,14 @@ func (ws *Workspace) hessian2(dim int) {
 		}
 		ws.g[a] = sg[a] * (p0.lnf[i] - p1.lnf[i])
 	}
-	for a := range dim {
-		i := ws.vi[a]
-		d0, d1 := p0.f.DN[i*n:i*n+n], p1.f.DN[i*n:i*n+n]
-		row := h[a*dim : a*dim+dim]
+	// Lower triangle only: solveSPD reads no more.
+	vi := ws.vi[:dim]
+	for a, i := range vi {
+		d0, d1 := p0.f.DN[i*n:][:n], p1.f.DN[i*n:][:n]
+		row := h[a*dim:][:a+1]
 		sa := sg[a]
-		for b := a; b < dim; b++ {
-			j := ws.vi[b]
-			v := sa * sg[b] * (d0[j]*ib0 + d1[j]*ib1 + c)
-			row[b] = v
-			h[b*dim+a] = v
+		for b, j := range vi[:a+1] {
+			row[b] = sa * sg[b] * (d0[j]*ib0 + d1[j]*ib1 + c)
 		}
 		row[a] += ib0/max(p0.x[i], tiny) + ib1/max(p1.x[i], tiny)
 	}

@@ -356,22 +356,27 @@ func (ws *Workspace) trialNewtonStep(sw float64) bool {
 	h, g := ws.H[:na*na], ws.g[:na]
 	dn := ws.tf.DN
 	n := ws.n
+	// √W_i in Wp (doubled to α_i below); the lower triangle of H only.
+	for _, i := range ws.act {
+		ws.Wp[i] = math.Sqrt(ws.W[i])
+	}
+	isw := 1 / sw
 	for a, i := range ws.act {
-		si := math.Sqrt(ws.W[i])
+		si := ws.Wp[i]
 		g[a] = si * ws.lnWn[i]
-		for b, j := range ws.act {
-			v := si * math.Sqrt(ws.W[j]) * dn[i*n+j] / sw
-			if a == b {
-				v++
-			}
-			h[a*na+b] = v
+		row := h[a*na:][:a+1]
+		dni := dn[i*n:][:n]
+		c := si * isw
+		for b, j := range ws.act[:a+1] {
+			row[b] = c * ws.Wp[j] * dni[j]
 		}
+		row[a]++
 	}
 	if !solveSPD(h, na, g, ws.dx[:na], ws.L[:na*na], ws.sc[:na]) {
 		return false
 	}
 	for a, i := range ws.act {
-		ws.Wp[i] = 2 * math.Sqrt(ws.W[i])
+		ws.Wp[i] *= 2
 		ws.dir[i] = ws.dx[a]
 	}
 	ws.alphaStep(1)

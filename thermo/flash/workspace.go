@@ -157,12 +157,21 @@ func (ws *Workspace) Mixture() *eos.Mixture { return ws.mx }
 
 // eval evaluates ln φ of composition x (mole fractions) on the root of
 // lowest Gibbs energy, with the aqueous parameter set when x is aqueous.
+// T and P were validated by begin and every composition the solver forms
+// is normalised, so the kernel's unchecked entry point is used; should a
+// composition ever not be finite (the volume comes out non-finite), the
+// checked one is run to report it.
 func (ws *Workspace) eval(x []float64, want eos.Want, f *eos.Fugacity) error {
 	ws.rep.LnPhiEvaluations++
+	mx, ews := ws.mx, ws.ews
 	if ws.aqueous(x) {
-		return ws.aq.Fugacity(ws.aws, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
+		mx, ews = ws.aq, ws.aws
 	}
-	return ws.mx.Fugacity(ws.ews, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
+	mx.FugacityTrusted(ews, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
+	if finite(f.Z) && finite(f.V) {
+		return nil
+	}
+	return mx.Fugacity(ews, ws.T, ws.P, x, eos.RootMinGibbs, want, f)
 }
 
 // evalPhase evaluates phase k and its ln f.

@@ -26,7 +26,13 @@
 // The flashes are nested (Michelsen 1987, section 2; Michelsen 1999): an
 // outer iteration on the unknown of the T–P pair, an inner T–P flash at
 // each iterate, warm-started from the previous inner result so that after
-// the first it usually costs a few Newton steps and a stability test.
+// the first it usually costs a few Newton steps and a stability test. For
+// P–H and P–S an inner flash warm-started from a split of two or more
+// phases converges that split without its stability test
+// (flash.Workspace.Split); the converged outer state is then confirmed by
+// a full T–P flash from its own split, and if that flash does not return
+// the same split (the path was metastable) the outer iteration is rerun
+// with every inner flash tested, so the shortcut never changes the answer.
 //
 // Single-phase shortcut. The single-phase equation of state is solved for
 // the specification first — h(T, P) = H by Newton with Cp, s(T, P) = S

@@ -77,6 +77,7 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 		T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax)
 	}
 	ws.rep.OuterIterations++
+	ws.lazy = true
 	if err := ws.tp(T, P, fwarm); err != nil {
 		return ws.innerErr(err, T, P)
 	}
@@ -86,8 +87,27 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 			return nil
 		}
 	}
-	if _, err := ws.solve1D(T, ws.set.tmin, ws.set.tmax, true); err != nil {
+	T, err := ws.solve1D(T, ws.set.tmin, ws.set.tmax, true)
+	if err != nil {
 		return err
+	}
+	if ws.unverified {
+		// Confirm the final state with a full flash from its own split: a
+		// stable split takes no Newton step and comes back unchanged; any
+		// other outcome restarts the outer solve with every inner flash
+		// tested, so a metastable path never changes the answer.
+		ws.lazy = false
+		ws.est = ws.fres.Estimate()
+		if err := ws.tp(T, P, &ws.est); err != nil {
+			return ws.innerErr(err, T, P)
+		}
+		if ws.fres.Report.Path != flash.PathWarm || ws.pressureResid() > ws.set.tol {
+			if _, err := ws.solve1D(T, ws.set.tmin, ws.set.tmax, true); err != nil {
+				return err
+			}
+		} else {
+			ws.o.resid = ws.pressureResid()
+		}
 	}
 	ws.finish(res, RouteNested, ws.o.resid)
 	return nil

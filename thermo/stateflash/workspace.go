@@ -33,6 +33,12 @@ type Workspace struct {
 	fres    *flash.Result
 	est     flash.Estimate
 	haveEst bool
+	// With lazy (P–H, P–S) an inner flash warm-started from a split of two
+	// or more phases converges the split without its stability test
+	// (flash.Workspace.Split); unverified says fres came from such a
+	// flash, and the outer solve confirms its final state with a full T–P
+	// flash before it returns.
+	lazy, unverified bool
 
 	// sensitivities
 	fug  [flash.MaxPhases]*eos.Fugacity
@@ -109,6 +115,7 @@ func (ws *Workspace) begin(ctx context.Context, spec Spec, opts *Options, z []fl
 	ws.rep = &res.Report
 	*ws.rep = Report{Spec: spec, Warm: warm != nil}
 	ws.haveEst = false
+	ws.lazy, ws.unverified = false, false
 	return nil
 }
 
@@ -133,6 +140,18 @@ func (ws *Workspace) tp(T, P float64, warm *flash.Estimate) error {
 		ws.est = ws.fres.Estimate()
 		warm = &ws.est
 	}
+	ws.unverified = false
+	if ws.lazy && warm != nil && warm.Phases >= 2 {
+		ok, err := ws.fws.Split(ws.ctx, T, P, ws.z, ws.set.flash, warm, ws.fres)
+		ws.count(&ws.fres.Report)
+		if err != nil && !solverFailure(err) {
+			return err
+		}
+		if ok && err == nil {
+			ws.haveEst, ws.unverified = true, true
+			return nil
+		}
+	}
 	err := ws.tpOnce(T, P, warm)
 	if err != nil && warm != nil && solverFailure(err) {
 		err = ws.tpOnce(T, P, nil)
@@ -154,10 +173,16 @@ func solverFailure(err error) bool {
 
 func (ws *Workspace) tpOnce(T, P float64, warm *flash.Estimate) error {
 	err := ws.fws.PT(ws.ctx, T, P, ws.z, ws.set.flash, warm, ws.fres)
-	r, fr := ws.rep, &ws.fres.Report
+	ws.count(&ws.fres.Report)
+	return err
+}
+
+// count adds the work of one inner flash to the report.
+func (ws *Workspace) count(fr *flash.Report) {
+	r := ws.rep
 	r.Flashes++
 	switch fr.Path {
-	case flash.PathWarm:
+	case flash.PathWarm, flash.PathUnverified:
 		r.WarmFlashes++
 	case flash.PathWarmFallback:
 		r.FallbackFlashes++
@@ -168,7 +193,6 @@ func (ws *Workspace) tpOnce(T, P float64, warm *flash.Estimate) error {
 	r.NewtonIterations += fr.NewtonIterations
 	r.RRIterations += fr.RRIterations
 	r.LnPhiEvaluations += fr.LnPhiEvaluations
-	return err
 }
 
 // finish copies the final inner result into res.
