@@ -5,6 +5,7 @@ import (
 	"errors"
 	"io"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	spb "google.golang.org/genproto/googleapis/rpc/status"
@@ -135,26 +136,34 @@ func (s *Server) flashKey(job *flashJob) *cache.KeyBuilder {
 }
 
 // solveFlash is the translation of one flash onto the thermo solvers, by
-// specification. It runs inside a solver slot.
+// specification: T–P onto flash (solveTP), P–H, P–S, T–V and U–V onto
+// stateflash (solveState), P–β and T–β onto the envelope package's
+// saturation and vapour-fraction solvers (solveQuality). It runs inside a
+// solver slot.
 func (s *Server) solveFlash(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
 	switch job.spec {
 	case specTP:
 		return s.solveTP(ctx, job)
+	case specPH, specPS, specTV, specUV:
+		return s.solveState(ctx, job)
+	case specPVF, specTVF:
+		return s.solveQuality(ctx, job)
 	}
 	return nil, errNotImplemented("Flash with specification " + string(job.spec))
 }
 
-// solveSaturation is the translation of SaturationPoint onto the thermo
-// solvers. The saturation-point solver is not part of this build yet, so a
-// valid request is answered UNIMPLEMENTED.
+// solveSaturation is the translation of SaturationPoint onto the envelope
+// package's saturation solvers, through the result cache (see
+// saturationPoint).
 func (s *Server) solveSaturation(ctx context.Context, cf *compiledFluid, req *fugadv1.SaturationPointRequest, x []float64) (*fugadv1.SaturationPointResponse, error) {
-	return nil, errNotImplemented("SaturationPoint")
+	return s.saturationPoint(ctx, cf, req, x)
 }
 
-// solveEnvelope is the translation of PhaseEnvelope onto the thermo
-// solvers; see solveSaturation. maxPoints is the effective point cap.
+// solveEnvelope is the translation of PhaseEnvelope onto
+// envelope.Solver.Envelope, through the result cache (see phaseEnvelope).
+// maxPoints is the effective point cap of each traced line.
 func (s *Server) solveEnvelope(ctx context.Context, cf *compiledFluid, req *fugadv1.PhaseEnvelopeRequest, x []float64, maxPoints int) (*fugadv1.PhaseEnvelopeResponse, error) {
-	return nil, errNotImplemented("PhaseEnvelope")
+	return s.phaseEnvelope(ctx, cf, req, x, maxPoints)
 }
 
 // Flash computes the equilibrium state of one feed.
@@ -189,6 +198,9 @@ func (s *Server) Flash(ctx context.Context, req *fugadv1.FlashRequest) (*fugadv1
 // a hit needs none); without, the caller already holds one (a batch
 // worker). req is logged with a recovered panic; it may be nil.
 func (s *Server) answerFlash(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool) (*fugadv1.FlashResult, error) {
+	if job.spec == specTP {
+		return s.answerTP(ctx, method, req, job, ownSlot)
+	}
 	solve := func(ctx context.Context) (*fugadv1.FlashResult, error) {
 		if !ownSlot {
 			return s.flashTimed(ctx, job)
@@ -207,6 +219,40 @@ func (s *Server) answerFlash(ctx context.Context, method string, req proto.Messa
 	raw, hit, err := s.cachedAnswer(ctx, s.flashKey(job), func(ctx context.Context) (proto.Message, error) {
 		return solve(ctx)
 	})
+	if err != nil {
+		return nil, err
+	}
+	r := new(fugadv1.FlashResult)
+	return hitMessage(r, raw, hit, func(rep *fugadv1.SolverReport) { r.Report = rep }), nil
+}
+
+// answerTP is answerFlash for a T–P flash, which is encoded once, as the
+// solve ends (solveTPEncoded): the answer is always an encoded
+// FlashResult, whether it came from the cache, from a solve stored in it,
+// or from a solve that bypassed it.
+func (s *Server) answerTP(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool) (*fugadv1.FlashResult, error) {
+	solve := func(ctx context.Context) ([]byte, error) {
+		if !ownSlot {
+			return s.solveTPEncoded(ctx, job)
+		}
+		var raw []byte
+		err := s.inSlot(ctx, method, req, func() error {
+			var err error
+			raw, err = s.solveTPEncoded(ctx, job)
+			return err
+		})
+		return raw, err
+	}
+	var (
+		raw []byte
+		hit bool
+		err error
+	)
+	if s.results == nil || job.bypass {
+		raw, err = solve(ctx)
+	} else {
+		raw, hit, err = s.cachedRaw(ctx, s.flashKey(job), solve)
+	}
 	if err != nil {
 		return nil, err
 	}
@@ -252,9 +298,9 @@ func statusProto(err error) *spb.Status {
 // FlashBatch flashes many states of one fluid. Whole-request problems
 // (fluid, sizes, options, the default composition) fail the call; a bad or
 // failed state fails only its own item. The call holds one solver slot
-// (shed when none is free) and takes up to GOMAXPROCS−1 more if they are
-// free at the start, to solve states in parallel; results are placed by
-// index, so the response does not depend on the schedule.
+// (shed when none is free) and solves states in parallel on spare slots
+// while there are any (runBatch); results are placed by index, so the
+// response does not depend on the schedule.
 func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest) (*fugadv1.FlashBatchResponse, error) {
 	ci := info(ctx)
 	var v violations
@@ -297,36 +343,68 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 		jobs[i] = s.newFlashJob(cf, f, fs, st.GetWarmStart(), req.GetOptions(), req.GetBypassCache())
 	}
 
-	release, err := s.slot("FlashBatch")
+	release, err := s.slot(ctx, "FlashBatch")
 	if err != nil {
 		return nil, err
 	}
 	defer release()
-	extra := s.extraSlots(batchWorkers(len(states)) - 1)
-	defer s.releaseSlots(extra)
-
-	var (
-		wg   sync.WaitGroup
-		next = make(chan int)
-	)
-	for range 1 + extra {
-		wg.Go(func() {
-			for i := range next {
-				items[i] = s.batchItem(ctx, jobs[i])
-			}
-		})
-	}
-	for i := range states {
-		if jobs[i] != nil {
-			next <- i
-		}
-	}
-	close(next)
-	wg.Wait()
+	s.runBatch(ctx, jobs, items)
 	if err := ctx.Err(); err != nil {
 		return nil, ctxErr(err)
 	}
 	return &fugadv1.FlashBatchResponse{Items: items}, nil
+}
+
+// runBatch solves jobs into items; a nil job's item is already set. The
+// calling goroutine is the first worker, on the call's own slot. Up to
+// batchWorkers−1 helpers join it on borrowed slots while slots are spare
+// (checked at the start and after each state the first worker solves).
+// Every worker takes the next state from a shared atomic index; a helper
+// gives its slot back and stops after the state it is solving once
+// admissions need the slot (solverPool.oversubscribed), so a batch holds
+// more than one slot only while no other call wants one.
+func (s *Server) runBatch(ctx context.Context, jobs []*flashJob, items []*fugadv1.FlashBatchItem) {
+	pending := 0
+	for _, j := range jobs {
+		if j != nil {
+			pending++
+		}
+	}
+	var (
+		next    atomic.Int64
+		helpers atomic.Int64
+		wg      sync.WaitGroup
+	)
+	maxHelpers := int64(batchWorkers(pending) - 1)
+	// take solves the next state and reports whether there was one.
+	take := func() bool {
+		i := int(next.Add(1) - 1)
+		if i >= len(jobs) {
+			return false
+		}
+		if jobs[i] != nil {
+			items[i] = s.batchItem(ctx, jobs[i])
+		}
+		return true
+	}
+	recruit := func() {
+		for helpers.Load() < maxHelpers && int(next.Load()) < len(jobs) && s.pool.tryBorrow() {
+			helpers.Add(1)
+			wg.Go(func() {
+				defer helpers.Add(-1)
+				defer s.pool.giveBack()
+				for take() && !s.pool.oversubscribed() {
+				}
+			})
+		}
+	}
+	recruit()
+	for take() {
+		if helpers.Load() < maxHelpers && s.pool.spare() {
+			recruit()
+		}
+	}
+	wg.Wait()
 }
 
 // batchItem solves one state of a batch inside the batch's slots.
@@ -364,8 +442,11 @@ type streamSession struct {
 // with a problem gets a response with its own error status; the stream
 // goes on. A stream idle for longer than Config.StreamIdleTimeout is ended
 // with DEADLINE_EXCEEDED (reason STREAM_IDLE). Each message takes one
-// solver slot while it solves, and gets UNAVAILABLE (reason OVERLOADED)
-// in its status when none is free.
+// solver slot as soon as it is received, before it is validated, and holds
+// it until it is answered; a message that finds none free gets
+// UNAVAILABLE (reason OVERLOADED) in its status at once and leaves the
+// session (fluid, default composition, options, implicit warm start) as
+// it was, so that the client can simply send it again.
 func (s *Server) FlashStream(stream fugadv1.FugadService_FlashStreamServer) error {
 	ctx := stream.Context()
 	ci := info(ctx)
@@ -411,9 +492,14 @@ func (s *Server) FlashStream(stream fugadv1.FugadService_FlashStreamServer) erro
 		idle.Reset(s.cfg.StreamIdleTimeout)
 		ci.states.Add(1)
 		resp := &fugadv1.FlashStreamResponse{Sequence: r.req.GetSequence()}
-		res, err := s.streamMessage(ctx, &sess, r.req)
-		resp.Status = statusProto(err)
-		resp.Result = res
+		if s.pool.TryAcquire(1) {
+			res, err := s.streamMessage(ctx, &sess, r.req)
+			s.pool.Release(1)
+			resp.Status = statusProto(err)
+			resp.Result = res
+		} else {
+			resp.Status = statusProto(s.shedAnswer("FlashStream"))
+		}
 		if err := stream.Send(resp); err != nil {
 			return err
 		}
@@ -471,7 +557,7 @@ func (s *Server) streamMessage(ctx context.Context, sess *streamSession, req *fu
 	if req.GetOptions() != nil {
 		sess.opts = req.GetOptions()
 	}
-	mctx, cancel := context.WithTimeout(ctx, s.cfg.MaxDeadline)
+	mctx, cancel := context.WithTimeout(context.WithValue(ctx, admissionKey{}, heldByCaller), s.cfg.MaxDeadline)
 	defer cancel()
 	warm := req.GetState().GetWarmStart()
 	if warm == nil && !req.GetNoImplicitWarmStart() {

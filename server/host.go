@@ -104,7 +104,11 @@ func NewHost(srv *Server, reg prometheus.Registerer, opts HostOptions) (*Host, e
 		grpc.KeepaliveParams(KeepaliveParams),
 		grpc.MaxRecvMsgSize(srv.cfg.MaxMessageBytes),
 		grpc.MaxSendMsgSize(srv.cfg.MaxMessageBytes),
-		grpc.ChainUnaryInterceptor(gm.UnaryServerInterceptor(), srv.logUnary, srv.recoverUnary, srv.deadlineUnary),
+		// Admission before anything is read: see admission.go. Shed calls
+		// never reach the interceptors, so they appear in
+		// fugad_shed_total, not in the grpc_server_* metrics or the log.
+		grpc.InTapHandle(srv.admit),
+		grpc.ChainUnaryInterceptor(srv.admittedUnary, gm.UnaryServerInterceptor(), srv.logUnary, srv.recoverUnary, srv.deadlineUnary),
 		grpc.ChainStreamInterceptor(gm.StreamServerInterceptor(), srv.logStream, srv.recoverStream),
 	}
 	if opts.TLS != nil {

@@ -2,13 +2,17 @@ package server_test
 
 import (
 	"context"
-	"flag"
+	"fmt"
 	"math"
 	"net"
+	"os"
 	"runtime"
 	"slices"
+	"strconv"
+	"strings"
 	"sync"
 	"sync/atomic"
+	"syscall"
 	"testing"
 	"time"
 
@@ -19,6 +23,8 @@ import (
 	"google.golang.org/grpc/credentials/insecure"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/status"
+	"google.golang.org/protobuf/encoding/protowire"
+	"google.golang.org/protobuf/types/known/emptypb"
 
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
 	"github.com/fugad/fugad/server"
@@ -29,6 +35,7 @@ import (
 type loopback struct {
 	srv    *server.Server
 	reg    *prometheus.Registry
+	conn   *grpc.ClientConn
 	api    fugadv1.FugadServiceClient
 	health healthpb.HealthClient
 }
@@ -61,7 +68,7 @@ func startLoopback(t *testing.T, cfg server.Config) *loopback {
 			t.Errorf("Serve: %v", err)
 		}
 	})
-	return &loopback{srv: srv, reg: reg, api: fugadv1.NewFugadServiceClient(conn), health: healthpb.NewHealthClient(conn)}
+	return &loopback{srv: srv, reg: reg, conn: conn, api: fugadv1.NewFugadServiceClient(conn), health: healthpb.NewHealthClient(conn)}
 }
 
 // loadGas is a 24-component natural gas with its condensate, invented for
@@ -127,10 +134,16 @@ func (f *flashSource) call(ctx context.Context, api fugadv1.FugadServiceClient) 
 }
 
 // batchSource makes FlashBatch requests of distinct T–P states of
-// loadGas, states per call.
+// loadGas, states per call. With conn set it reads each answer as raw
+// bytes and checks only its structure (one item per state, each OK with a
+// result), so that the load generator, which shares the process and its
+// processors with the server, spends little on decoding answers.
 type batchSource struct {
 	flash  *flashSource
 	states int
+	conn   *grpc.ClientConn
+	// timeout is each call's deadline; zero means 10 s.
+	timeout time.Duration
 }
 
 func (b *batchSource) call(ctx context.Context, api fugadv1.FugadServiceClient) callResult {
@@ -140,28 +153,112 @@ func (b *batchSource) call(ctx context.Context, api fugadv1.FugadServiceClient) 
 		st.MoleFractions = nil
 		req.States = append(req.States, st)
 	}
-	ctx, cancel := context.WithTimeout(ctx, 10*time.Second)
+	timeout := b.timeout
+	if timeout == 0 {
+		timeout = 10 * time.Second
+	}
+	ctx, cancel := context.WithTimeout(ctx, timeout)
 	defer cancel()
 	t0 := time.Now()
-	resp, err := api.FlashBatch(ctx, req)
+	var (
+		resp *fugadv1.FlashBatchResponse
+		raw  emptypb.Empty
+		err  error
+	)
+	if b.conn != nil {
+		err = b.conn.Invoke(ctx, fugadv1.FugadService_FlashBatch_FullMethodName, req, &raw)
+	} else {
+		resp, err = api.FlashBatch(ctx, req)
+	}
 	r := callResult{code: status.Code(err), d: time.Since(t0)}
 	for _, d := range status.Convert(err).Details() {
 		if ei, ok := d.(*errdetails.ErrorInfo); ok {
 			r.reason = ei.GetReason()
 		}
 	}
-	if err == nil {
+	if err != nil {
+		return r
+	}
+	items, bad := 0, ""
+	if b.conn != nil {
+		items, bad = rawBatchItems(raw.ProtoReflect().GetUnknown())
+	} else {
+		items = len(resp.GetItems())
 		for _, it := range resp.GetItems() {
-			if c := codes.Code(it.GetStatus().GetCode()); c != codes.OK {
-				r.code, r.reason = c, "batch item: "+it.GetStatus().GetMessage()
+			if c := codes.Code(it.GetStatus().GetCode()); c != codes.OK || it.GetResult() == nil {
+				bad = c.String() + " " + it.GetStatus().GetMessage()
 				break
 			}
 		}
-		if len(resp.GetItems()) != len(req.GetStates()) {
-			r.code, r.reason = codes.DataLoss, "batch items missing"
-		}
+	}
+	switch {
+	case bad != "":
+		r.code, r.reason = codes.DataLoss, "batch item: "+bad
+	case items != len(req.GetStates()):
+		r.code, r.reason = codes.DataLoss, "batch items missing"
 	}
 	return r
+}
+
+// rawBatchItems walks an encoded FlashBatchResponse (api/fugad/v1/
+// flash.proto: items = 1; FlashBatchItem status = 1, result = 2;
+// google.rpc.Status code = 1) and returns the number of items and a
+// description of the first that is not OK with a result.
+func rawBatchItems(b []byte) (items int, bad string) {
+	each := func(b []byte, f func(num protowire.Number, typ protowire.Type, v []byte, x uint64)) bool {
+		for len(b) > 0 {
+			num, typ, n := protowire.ConsumeTag(b)
+			if n < 0 {
+				return false
+			}
+			b = b[n:]
+			var v []byte
+			var x uint64
+			switch typ {
+			case protowire.BytesType:
+				v, n = protowire.ConsumeBytes(b)
+			case protowire.VarintType:
+				x, n = protowire.ConsumeVarint(b)
+			default:
+				n = protowire.ConsumeFieldValue(num, typ, b)
+			}
+			if n < 0 {
+				return false
+			}
+			b = b[n:]
+			f(num, typ, v, x)
+		}
+		return true
+	}
+	ok := each(b, func(num protowire.Number, typ protowire.Type, item []byte, _ uint64) {
+		if num != 1 || typ != protowire.BytesType {
+			return
+		}
+		items++
+		var code uint64
+		result := false
+		if !each(item, func(num protowire.Number, typ protowire.Type, v []byte, _ uint64) {
+			switch {
+			case num == 1 && typ == protowire.BytesType:
+				each(v, func(num protowire.Number, typ protowire.Type, _ []byte, x uint64) {
+					if num == 1 && typ == protowire.VarintType {
+						code = x
+					}
+				})
+			case num == 2 && typ == protowire.BytesType:
+				result = true
+			}
+		}) && bad == "" {
+			bad = "malformed item"
+		}
+		if bad == "" && (code != 0 || !result) {
+			bad = fmt.Sprintf("item %d: code %v, result present %v", items-1, codes.Code(code), result)
+		}
+	})
+	if !ok && bad == "" {
+		bad = "malformed response"
+	}
+	return items, bad
 }
 
 // source is a kind of call the load tests send.
@@ -288,35 +385,40 @@ func healthProbe(h healthpb.HealthClient, stop <-chan struct{}) (bad func() []st
 		}
 }
 
-var overloadStrict = flag.Bool("overload.strict", false, "TestOverload: also require shed answers under 1 ms (for a quiet machine)")
-
 // Bounds of the overload test and why.
 const (
 	// overloadFactor is the offered rate over the sustainable one.
 	overloadFactor = 4
+	// overloadWindow is the length of one overload run; overloadAttempts
+	// bounds the runs. Every run must pass the structural checks (only
+	// OK and UNAVAILABLE/OVERLOADED, no solver work for shed calls, a
+	// bounded accepted p99, health SERVING); the 1 ms bound on shed
+	// answers must hold in one of them, so that a burst of other work on
+	// a shared machine (another package's tests under go test ./...) does
+	// not fail the test, while a server that makes shed calls wait (for a
+	// slot, for a decode, for a processor kept busy by solvers) fails
+	// every run.
+	overloadWindow   = 2 * time.Second
+	overloadAttempts = 3
 	// acceptedP99Factor bounds the p99 latency of accepted calls under
 	// overload against the unloaded p99. A server that queued the excess
-	// instead of shedding it would, at 4× its capacity for 3 s, build a
-	// backlog of about 9 s of work and answer in seconds: more than a
+	// instead of shedding it would, at 4× its capacity for 2 s, build a
+	// backlog of about 6 s of work and answer in seconds: more than a
 	// thousand times an unloaded call. With shedding an accepted call
-	// waits for no slot; it shares the two cores with the shed calls'
-	// decoding and validation and with the load generator in the same
-	// process. On a 2-core machine shared with other builds (load average
-	// 12–16) that cost 11–23× in our runs; 50× keeps a factor of 20 from
-	// queueing behaviour.
-	acceptedP99Factor = 50
-	// shedFastLimit: a shed answer is decided before any solve (one
-	// non-blocking semaphore try after decoding and validation), so on an
-	// idle loopback it arrives in well under a millisecond. On a busy
-	// shared machine it waits for CPU like everything else (and, with
-	// MaxConcurrentSolves = GOMAXPROCS, behind batch workers that keep
-	// every P busy), so by default the test asserts that shed calls do no
-	// solver work and that their median is within the accepted calls'
-	// p99 of the same moment; with -overload.strict (for a quiet
-	// machine) it also asserts that at most shedSlowFraction of them,
-	// GC pauses and scheduling hiccups, take shedFastLimit or longer.
+	// waits for no slot; it shares the processors with the shed calls'
+	// header handling and with the load generator in the same process,
+	// which cost 2–3× on 2 busy cores in our runs.
+	acceptedP99Factor = 10
+	// shedFastLimit and shedSlowFraction: a shed answer is decided in the
+	// transport's tap handle before the request is read, and one processor
+	// is left to the RPC layer (server.DefaultMaxConcurrentSolves), so on
+	// loopback it arrives in well under shedFastLimit; at most
+	// shedSlowFraction of them may take longer (garbage-collection pauses,
+	// which stop every goroutine, and the scheduler's hiccups). That is
+	// the requirement "the excess is shed with UNAVAILABLE in under 1 ms"
+	// as a p98.
 	shedFastLimit    = time.Millisecond
-	shedSlowFraction = 0.10
+	shedSlowFraction = 0.02
 	// The heap after the overload, once collected, is within 1.5× the
 	// heap before plus 16 MiB: nothing grows with the number of shed or
 	// accepted calls (the result cache is bypassed; in-flight calls are
@@ -333,6 +435,40 @@ const (
 	// shedding at the pool cannot relieve.
 	overloadStates = 16
 )
+
+// machineCPU reads the busy and total jiffies of all processors from
+// /proc/stat; ok is false where that file does not exist.
+func machineCPU() (busy, total uint64, ok bool) {
+	b, err := os.ReadFile("/proc/stat")
+	if err != nil {
+		return 0, 0, false
+	}
+	line, _, _ := strings.Cut(string(b), "\n")
+	f := strings.Fields(line)
+	if len(f) < 5 || f[0] != "cpu" {
+		return 0, 0, false
+	}
+	for i, v := range f[1:] {
+		n, err := strconv.ParseUint(v, 10, 64)
+		if err != nil {
+			return 0, 0, false
+		}
+		total += n
+		if i != 3 && i != 4 { // idle, iowait
+			busy += n
+		}
+	}
+	return busy, total, true
+}
+
+// processCPU is the user plus system CPU time of this process so far.
+func processCPU() time.Duration {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
+}
 
 // solveCount reads the count of fugad_solve_duration_seconds from reg.
 func solveCount(t *testing.T, reg prometheus.Gatherer) uint64 {
@@ -378,103 +514,150 @@ func meanSolveSeconds(t *testing.T, reg prometheus.Gatherer) float64 {
 }
 
 // TestOverload drives the server over loopback TCP at four times its
-// sustainable rate and checks that it stays healthy, keeps serving the
-// calls it accepts in bounded time, sheds the excess quickly with
-// UNAVAILABLE/OVERLOADED and nothing else, and does not grow its heap.
+// sustainable rate and checks the requirement: the server stays up and
+// healthy, accepted calls keep a bounded p99, the excess is shed with
+// UNAVAILABLE/OVERLOADED and nothing else, in under 1 ms at the client
+// (shedFastLimit, shedSlowFraction), shed calls do no solver work, and the
+// heap does not grow.
 //
-// The sustainable rate is the pool size over the mean solve time (from
-// fugad_solve_duration_seconds of the unloaded calls): the most solves
-// the slots can complete per second. Decoding and the RPC itself take CPU
-// too, so the real capacity is lower and the overload larger than 4×.
+// The sustainable rate is the pool size over the mean solve time of a
+// batch (from fugad_solve_duration_seconds of the unloaded calls): the
+// most solves the slots can complete per second. Under overload a batch
+// runs on its own slot only (it borrows spare slots, and there are none).
+// Decoding and the RPC itself take CPU too, so the real capacity is lower
+// and the overload larger than 4×. The load generator reads answers as raw
+// bytes (batchSource.conn), keeping its own share of the processors small.
 //
-// The machine may be shared with other work, so the absolute figures are
-// logged and the assertions compare quantities measured under the same
-// conditions: the accepted p99 against the unloaded p99 (the larger of
-// the runs just before and just after the overload), shed answers against
-// accepted ones of the same moment.
+// Each run logs what the machine did meanwhile (the processors' busy share
+// and this process's share of it), since on a shared machine the other
+// work is what makes a run slow.
+// strictShedBound reports whether the under-1-ms bound on shed answers is
+// asserted (FUGAD_OVERLOAD_STRICT=1), for a run on an otherwise idle machine.
+func strictShedBound() bool { return os.Getenv("FUGAD_OVERLOAD_STRICT") == "1" }
+
 func TestOverload(t *testing.T) {
-	procs := runtime.GOMAXPROCS(0)
-	pool := procs // as the fugad binary configures it
-	lb := startLoopback(t, server.Config{MaxConcurrentSolves: pool})
-	src := &batchSource{flash: newFlashSource(true), states: overloadStates}
+	lb := startLoopback(t, server.Config{})
+	pool := lb.srv.Config().MaxConcurrentSolves
+	// A short deadline: gRPC keeps the deadline timer of a stream its tap
+	// handle refused until the deadline passes (grpc-go issue 2976), so
+	// the memory a shed call leaves behind for a while is proportional to
+	// the client's deadline.
+	src := &batchSource{flash: newFlashSource(true), states: overloadStates, conn: lb.conn, timeout: time.Second}
 	ctx := context.Background()
 
 	sequential(t, src, lb.api, 10) // warm-up: connection, compiled fluid
 	before := sequential(t, src, lb.api, 100)
 	solve := meanSolveSeconds(t, lb.reg) * overloadStates
-	slotsPerCall := min(pool, procs, overloadStates) // a batch takes up to GOMAXPROCS free slots
-	sustainable := float64(pool) / float64(slotsPerCall) / (solve / float64(slotsPerCall))
+	sustainable := float64(pool) / solve
 	offered := overloadFactor * sustainable
-	t.Logf("unloaded: call p50 %v, p99 %v per %d-state batch; solving %.2f ms per batch; sustainable ≈ %.0f calls/s (%d slots, %d per call); offering %.0f calls/s",
-		quantile(before, 0.5), quantile(before, 0.99), overloadStates, solve*1e3, sustainable, pool, slotsPerCall, offered)
+	t.Logf("unloaded: call p50 %v, p99 %v per %d-state batch; solving %.2f ms per batch; sustainable ≈ %.0f calls/s (%d slots); offering %.0f calls/s",
+		quantile(before, 0.5), quantile(before, 0.99), overloadStates, solve*1e3, sustainable, pool, offered)
 
 	heapBefore := heapInuse()
-	stop := make(chan struct{})
-	healthBad, healthSlowest := healthProbe(lb.health, stop)
-	t0 := time.Now()
-	results, dropped := openLoop(ctx, offered, 3*time.Second, overloadInFlight, func() callResult { return src.call(ctx, lb.api) })
-	elapsed := time.Since(t0)
-	close(stop)
+	acceptedTotal, fast := 0, false
+	for attempt := 1; attempt <= overloadAttempts && !fast; attempt++ {
+		stop := make(chan struct{})
+		healthBad, healthSlowest := healthProbe(lb.health, stop)
+		busy0, total0, haveCPU := machineCPU()
+		cpu0 := processCPU()
+		t0 := time.Now()
+		results, dropped := openLoop(ctx, offered, overloadWindow, overloadInFlight, func() callResult { return src.call(ctx, lb.api) })
+		elapsed := time.Since(t0)
+		cpu := processCPU() - cpu0
+		busy1, total1, _ := machineCPU()
+		close(stop)
+
+		var accepted, shed []time.Duration
+		other := map[string]int{}
+		for _, r := range results {
+			switch {
+			case r.code == codes.OK:
+				accepted = append(accepted, r.d)
+			case r.code == codes.Unavailable && r.reason == server.ReasonOverloaded:
+				shed = append(shed, r.d)
+			default:
+				other[r.code.String()+"/"+r.reason]++
+			}
+		}
+		acceptedTotal += len(accepted)
+		slices.Sort(accepted)
+		slices.Sort(shed)
+		slow := 0
+		for _, d := range shed {
+			if d >= shedFastLimit {
+				slow++
+			}
+		}
+		machine := "machine load unknown"
+		if haveCPU && total1 > total0 {
+			share := float64(busy1-busy0) / float64(total1-total0)
+			machine = fmt.Sprintf("processors %.0f %% busy, this process %.0f %% of their capacity", 100*share,
+				100*cpu.Seconds()/(elapsed.Seconds()*float64(runtime.NumCPU())))
+		}
+		t.Logf("run %d: %d calls in %v (%d arrivals not sent: %d in flight), %d accepted (%.0f/s, %.2f of sustainable), %d shed (%.0f/s); %s",
+			attempt, len(results), elapsed.Round(time.Millisecond), dropped, overloadInFlight, len(accepted),
+			float64(len(accepted))/elapsed.Seconds(), float64(len(accepted))/elapsed.Seconds()/sustainable, len(shed), float64(len(shed))/elapsed.Seconds(), machine)
+		t.Logf("run %d: accepted p50 %v, p99 %v (%.1f× unloaded p99); shed p50 %v, p99 %v, max %v; %d of %d shed answers ≥ %v; slowest health check %v",
+			attempt, quantile(accepted, 0.5), quantile(accepted, 0.99), float64(quantile(accepted, 0.99))/float64(quantile(before, 0.99)),
+			quantile(shed, 0.5), quantile(shed, 0.99), quantile(shed, 1), slow, len(shed), shedFastLimit, healthSlowest())
+
+		if len(other) > 0 {
+			t.Errorf("run %d: calls failed other than by shedding: %v", attempt, other)
+		}
+		if len(shed) == 0 {
+			t.Errorf("run %d: nothing shed at %d× the sustainable rate", attempt, overloadFactor)
+		}
+		if len(accepted) == 0 {
+			t.Fatalf("run %d: nothing accepted under overload", attempt)
+		}
+		if got, unloaded := quantile(accepted, 0.99), quantile(before, 0.99); got > acceptedP99Factor*unloaded {
+			t.Errorf("run %d: accepted p99 %v > %d× unloaded p99 %v: accepted calls are queueing", attempt, got, acceptedP99Factor, unloaded)
+		}
+		// A shed call that waited for a slot would queue behind the
+		// overload's backlog and take longer than accepted calls.
+		if len(shed) > 0 && quantile(shed, 0.5) > quantile(accepted, 0.5) {
+			t.Errorf("run %d: median shed answer %v slower than the median accepted call %v: shed calls wait", attempt, quantile(shed, 0.5), quantile(accepted, 0.5))
+		}
+		if bad := healthBad(); len(bad) > 0 {
+			t.Errorf("run %d: health not SERVING under overload: %v", attempt, bad)
+		}
+		if raceDetector {
+			// Under the race detector every instruction is 5–20× slower,
+			// so the absolute bound is for normal builds; here a shed
+			// answer must still be faster than an unloaded call, at the
+			// same quantile.
+			limit := quantile(before, 0.5)
+			fast = len(shed) > 0 && quantile(shed, 1-shedSlowFraction) < limit
+			if !fast && attempt == overloadAttempts {
+				t.Errorf("race detector: in each of %d runs the shed p%.0f (last %v) was not below the unloaded median call %v",
+					overloadAttempts, 100*(1-shedSlowFraction), quantile(shed, 1-shedSlowFraction), limit)
+			}
+			continue
+		}
+		fast = len(shed) > 0 && float64(slow) <= shedSlowFraction*float64(len(shed))
+		if !strictShedBound() {
+			// The absolute bound needs a machine with nothing else running;
+			// `go test ./...` runs packages side by side. The bound is
+			// asserted with FUGAD_OVERLOAD_STRICT=1 (see
+			// cmd/fugadload/README.md); here the shed latency is reported
+			// and the structural checks above hold.
+			fast = true
+			continue
+		}
+		if !fast && attempt == overloadAttempts {
+			t.Errorf("in each of %d runs more than %.0f %% of shed answers took ≥ %v (last run: %d of %d; p99 %v)",
+				overloadAttempts, 100*shedSlowFraction, shedFastLimit, slow, len(shed), quantile(shed, 0.99))
+		}
+	}
 	heapAfter := heapInuse()
-	after := sequential(t, src, lb.api, 100)
-	p99 := max(quantile(before, 0.99), quantile(after, 0.99))
+	sequential(t, src, lb.api, 100)
+	t.Logf("heap in use %.1f MiB before, %.1f MiB after", float64(heapBefore)/(1<<20), float64(heapAfter)/(1<<20))
 
-	var accepted, shed []time.Duration
-	other := map[string]int{}
-	for _, r := range results {
-		switch {
-		case r.code == codes.OK:
-			accepted = append(accepted, r.d)
-		case r.code == codes.Unavailable && r.reason == server.ReasonOverloaded:
-			shed = append(shed, r.d)
-		default:
-			other[r.code.String()+"/"+r.reason]++
-		}
-	}
-	slices.Sort(accepted)
-	slices.Sort(shed)
-	slow := 0
-	for _, d := range shed {
-		if d >= shedFastLimit {
-			slow++
-		}
-	}
-	t.Logf("overload: %d calls in %v (%d arrivals not sent: %d in flight), %d accepted (%.0f/s, %.2f of sustainable), %d shed (%.0f/s)",
-		len(results), elapsed.Round(time.Millisecond), dropped, overloadInFlight, len(accepted),
-		float64(len(accepted))/elapsed.Seconds(), float64(len(accepted))/elapsed.Seconds()/sustainable, len(shed), float64(len(shed))/elapsed.Seconds())
-	t.Logf("accepted latency p50 %v, p99 %v (%.1f× unloaded p99 %v); shed latency p50 %v, p99 %v, max %v; %d of %d shed answers ≥ %v",
-		quantile(accepted, 0.5), quantile(accepted, 0.99), float64(quantile(accepted, 0.99))/float64(p99), p99,
-		quantile(shed, 0.5), quantile(shed, 0.99), quantile(shed, 1), slow, len(shed), shedFastLimit)
-	t.Logf("heap in use %.1f MiB before, %.1f MiB after; slowest health check %v", float64(heapBefore)/(1<<20), float64(heapAfter)/(1<<20), healthSlowest())
-
-	if len(other) > 0 {
-		t.Errorf("calls failed other than by shedding: %v", other)
-	}
-	if len(shed) == 0 {
-		t.Errorf("nothing shed at %d× the sustainable rate", overloadFactor)
-	}
-	if len(accepted) == 0 {
-		t.Fatal("nothing accepted under overload")
-	}
-	if got := quantile(accepted, 0.99); got > acceptedP99Factor*p99 {
-		t.Errorf("accepted p99 %v > %d× unloaded p99 %v: accepted calls are queueing", got, acceptedP99Factor, p99)
-	}
-	if *overloadStrict && float64(slow) > shedSlowFraction*float64(len(shed)) {
-		t.Errorf("%d of %d shed answers took ≥ %v (allowed %.0f %%)", slow, len(shed), shedFastLimit, 100*shedSlowFraction)
-	}
-	// A shed call that waited for a slot would queue behind the overload's
-	// backlog and take longer than the slow tail of the accepted calls.
-	if len(shed) > 0 && quantile(shed, 0.5) > quantile(accepted, 0.99) {
-		t.Errorf("median shed answer %v slower than the accepted p99 %v: shed calls wait", quantile(shed, 0.5), quantile(accepted, 0.99))
-	}
 	// Shed calls did no solver work: the solves counted by the server are
 	// those of the unloaded runs and of the accepted calls.
-	wantSolves := uint64(overloadStates * (10 + 100 + 100 + len(accepted)))
+	wantSolves := uint64(overloadStates * (10 + 100 + 100 + acceptedTotal))
 	if got := solveCount(t, lb.reg); got != wantSolves {
 		t.Errorf("%d solves recorded, want %d (unloaded and accepted states only)", got, wantSolves)
-	}
-	if bad := healthBad(); len(bad) > 0 {
-		t.Errorf("health not SERVING under overload: %v", bad)
 	}
 	if float64(heapAfter) > heapFactor*float64(heapBefore)+heapSlack {
 		t.Errorf("heap in use grew from %d to %d bytes", heapBefore, heapAfter)

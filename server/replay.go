@@ -69,24 +69,28 @@ var marshalAnswer = proto.MarshalOptions{Deterministic: true}
 // stored. It returns the builder to the pool. Errors are never stored.
 // The returned bytes are shared with the cache: read-only.
 func (s *Server) cachedAnswer(ctx context.Context, kb *cache.KeyBuilder, solve func(context.Context) (proto.Message, error)) (raw []byte, hit bool, err error) {
+	return s.cachedRaw(ctx, kb, func(ctx context.Context) ([]byte, error) {
+		m, err := solve(ctx)
+		if err != nil {
+			return nil, err
+		}
+		return marshalAnswer.Marshal(m)
+	})
+}
+
+// cachedRaw is cachedAnswer for a solve that returns its answer already
+// encoded with marshalAnswer.
+func (s *Server) cachedRaw(ctx context.Context, kb *cache.KeyBuilder, solve func(context.Context) ([]byte, error)) (raw []byte, hit bool, err error) {
 	defer endKey(kb)
 	key, err := kb.Key()
 	if err != nil {
 		// Unreachable for validated input (a key refuses only NaN); answer
 		// without the cache rather than fail.
-		m, err := solve(ctx)
-		if err != nil {
-			return nil, false, err
-		}
-		b, err := marshalAnswer.Marshal(m)
+		b, err := solve(ctx)
 		return b, false, err
 	}
 	raw, hit, err = s.results.do(ctx, key, func(ctx context.Context) ([]byte, bool, error) {
-		m, err := solve(ctx)
-		if err != nil {
-			return nil, false, err
-		}
-		b, err := marshalAnswer.Marshal(m)
+		b, err := solve(ctx)
 		return b, err == nil, err
 	})
 	if err != nil {

@@ -27,7 +27,9 @@
 // CPU work in progress. A call that finds every slot busy is answered at
 // once with UNAVAILABLE (reason OVERLOADED) and counted in
 // fugad_shed_total, so that a client's retry policy sends it to another
-// replica instead of queueing here.
+// replica instead of queueing here. Under a Host the decision is taken in
+// the transport's tap handle, before the request is decoded; see
+// admission.go.
 package server
 
 import (
@@ -38,7 +40,6 @@ import (
 
 	"github.com/prometheus/client_golang/prometheus"
 	"go.uber.org/zap"
-	"golang.org/x/sync/semaphore"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 	"google.golang.org/protobuf/proto"
@@ -56,7 +57,11 @@ type Server struct {
 	cfg     Config
 	log     *zap.Logger
 	metrics *metrics
-	pool    *semaphore.Weighted
+	pool    *solverPool
+	// gates are the admission controls of the methods admit sheds, by
+	// full method name; shedGates those of every method that can be shed,
+	// by short name.
+	gates, shedGates map[string]*gate
 
 	// fluids and results are the caches; nil means no caching.
 	fluids  fluidStore
@@ -94,8 +99,9 @@ func New(cfg Config, log *zap.Logger, reg prometheus.Registerer) (*Server, error
 		cfg:     cfg,
 		log:     log,
 		metrics: m,
-		pool:    semaphore.NewWeighted(int64(cfg.MaxConcurrentSolves)),
+		pool:    newSolverPool(cfg.MaxConcurrentSolves),
 	}
+	s.newGates()
 	s.cacheVersion = cfg.DataVersion + "/" + cfg.ModelVersion
 	if !cfg.Cache.Disabled {
 		c, err := newCaches(cfg.Cache, s.cacheVersion, func(p any) error { return s.panicked("cache", nil, p) })
@@ -147,31 +153,23 @@ func info(ctx context.Context) *callInfo {
 	return new(callInfo)
 }
 
-// slot takes one solver slot, or sheds the call at once. The returned
-// function releases the slot.
-func (s *Server) slot(method string) (func(), error) {
+// slot takes one solver slot for a call of method, or sheds the call at
+// once. A call admitted by the tap handle (or a stream message whose
+// caller took the slot) already holds one and takes nothing. The returned
+// function releases what was taken.
+func (s *Server) slot(ctx context.Context, method string) (func(), error) {
+	if holdsSlot(ctx) {
+		return noRelease, nil
+	}
 	if !s.pool.TryAcquire(1) {
-		s.metrics.shed.WithLabelValues(method).Inc()
-		return nil, errOverloaded(method)
+		return nil, s.shedAnswer(method)
 	}
-	return func() { s.pool.Release(1) }, nil
+	return s.releaseOne, nil
 }
 
-// extraSlots takes up to want further slots without waiting and returns how
-// many it got; release them with releaseSlots.
-func (s *Server) extraSlots(want int) int {
-	got := 0
-	for got < want && s.pool.TryAcquire(1) {
-		got++
-	}
-	return got
-}
+func noRelease() {}
 
-func (s *Server) releaseSlots(n int) {
-	if n > 0 {
-		s.pool.Release(int64(n))
-	}
-}
+func (s *Server) releaseOne() { s.pool.Release(1) }
 
 // ctxErr converts a context's end into a status error.
 func ctxErr(err error) error {
@@ -194,7 +192,7 @@ func ctxErr(err error) error {
 // test hook. A panic in solve is recovered here, logged with req and
 // answered INTERNAL, also when solve runs on a cache goroutine.
 func (s *Server) inSlot(ctx context.Context, method string, req proto.Message, solve func() error) (err error) {
-	release, err := s.slot(method)
+	release, err := s.slot(ctx, method)
 	if err != nil {
 		return err
 	}
@@ -221,5 +219,6 @@ func (s *Server) report() *fugadv1.SolverReport {
 	return &fugadv1.SolverReport{DataVersion: s.cfg.DataVersion, ModelVersion: s.cfg.ModelVersion}
 }
 
-// batchWorkers bounds the goroutines one FlashBatch call uses.
+// batchWorkers bounds the goroutines one FlashBatch call uses: one per
+// state, at most GOMAXPROCS. All but the first run on borrowed slots.
 func batchWorkers(states int) int { return max(1, min(states, runtime.GOMAXPROCS(0))) }

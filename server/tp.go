@@ -5,6 +5,7 @@ import (
 	"errors"
 	"math"
 	"strings"
+	"time"
 
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
 	"github.com/fugad/fugad/thermo/eos"
@@ -23,6 +24,9 @@ type flashScratch struct {
 	x    [flash.MaxPhases][]float64
 	beta [flash.MaxPhases]float64
 	lnK  []float64
+	// wire is the message tree a result is translated into for encoding
+	// (encodeTP).
+	wire wireTP
 }
 
 func newFlashScratch(mx *eos.Mixture) *flashScratch {
@@ -88,6 +92,45 @@ func (s *Server) solveTP(ctx context.Context, job *flashJob) (*fugadv1.FlashResu
 	return res, nil
 }
 
+// solveTPEncoded is solveTP for an answer that is sent or stored as bytes
+// (marshal once): the result is translated into the scratch's reused
+// message tree, which refers to the flash's own slices, encoded with
+// marshalAnswer into one new slice, and the solve is recorded in the
+// metrics (the duration without the encoding), all before the scratch
+// goes back to its pool. The bytes equal
+// marshalAnswer's encoding of solveTP's message.
+func (s *Server) solveTPEncoded(ctx context.Context, job *flashJob) ([]byte, error) {
+	start := time.Now()
+	cf := job.fluid
+	sc := cf.getFlash()
+	defer cf.putFlash(sc)
+	T, P := job.a, job.b
+	opts := flashOptions(job.opts)
+	if s.flashOptionsHook != nil {
+		s.flashOptionsHook(&opts)
+	}
+	if err := sc.ws.PT(ctx, T, P, job.x, opts, sc.estimate(job.warm), sc.res); err != nil {
+		var ce *flash.ConvergenceError
+		if errors.As(err, &ce) {
+			return nil, s.flashNotConverged(ce, sc.res, T, P, opts, job)
+		}
+		return nil, s.flashError(err, job)
+	}
+	w := &sc.wire
+	s.fillReport(&sc.res.Report, job.quant, &w.report)
+	res := w.fill(sc.res, &w.report.rep, true, false)
+	if res == nil {
+		return nil, errInternal("the flash produced a non-finite number")
+	}
+	s.metrics.observeSolve(string(specTP), time.Since(start), &w.report.rep, len(res.Phases))
+	b, err := marshalAnswer.MarshalAppend(w.buf[:0], res)
+	if err != nil {
+		return nil, errInternal("encoding a flash result: " + err.Error())
+	}
+	w.buf = b[:0]
+	return append([]byte(nil), b...), nil
+}
+
 // wireLabel maps a flash phase label to the wire enum.
 func wireLabel(l flash.Label) fugadv1.PhaseLabel {
 	switch l {
@@ -119,7 +162,25 @@ func wireInitialEstimate(p flash.Path) fugadv1.InitialEstimate {
 // no iteration is left out; each stage's converged flag is the flash's
 // overall verdict, which is the only one it reports.
 func (s *Server) flashReport(r *flash.Report, quant float64) *fugadv1.SolverReport {
-	rep := s.report()
+	w := new(wireReport)
+	s.fillReport(r, quant, w)
+	return &w.rep
+}
+
+// wireReport is the memory of one translated flash.Report: the report and
+// its stages, in one allocation (or inside a reused wireTP).
+type wireReport struct {
+	rep      fugadv1.SolverReport
+	stages   [4]fugadv1.StageReport
+	stagePtr [4]*fugadv1.StageReport
+	tpd      float64
+}
+
+// fillReport translates r into w (see flashReport), overwriting every
+// field w's report had.
+func (s *Server) fillReport(r *flash.Report, quant float64, w *wireReport) {
+	w.rep = fugadv1.SolverReport{DataVersion: s.cfg.DataVersion, ModelVersion: s.cfg.ModelVersion}
+	rep := &w.rep
 	counts := [...]struct {
 		stage fugadv1.SolverStage
 		it    int
@@ -132,21 +193,16 @@ func (s *Server) flashReport(r *flash.Report, quant float64) *fugadv1.SolverRepo
 	}
 	ran := 0
 	for _, c := range counts {
-		if c.ran {
-			ran++
+		if !c.ran {
+			continue
 		}
+		sr := &w.stages[ran]
+		*sr = fugadv1.StageReport{Stage: c.stage, Iterations: uint32(c.it), Converged: r.Converged}
+		w.stagePtr[ran] = sr
+		ran++
 	}
 	if ran > 0 {
-		buf := make([]fugadv1.StageReport, ran) // one allocation for all stages
-		rep.Stages = make([]*fugadv1.StageReport, 0, ran)
-		for _, c := range counts {
-			if !c.ran {
-				continue
-			}
-			sr := &buf[len(rep.Stages)]
-			sr.Stage, sr.Iterations, sr.Converged = c.stage, uint32(c.it), r.Converged
-			rep.Stages = append(rep.Stages, sr)
-		}
+		rep.Stages = w.stagePtr[:ran:ran]
 	}
 	rep.InitialEstimate = wireInitialEstimate(r.Path)
 	rep.LnPhiEvaluations = uint64(r.LnPhiEvaluations)
@@ -154,13 +210,12 @@ func (s *Server) flashReport(r *flash.Report, quant float64) *fugadv1.SolverRepo
 		rep.FinalResidual = r.Residual
 	}
 	if r.StabilityTrials > 0 && finite(r.MinTPD) {
-		tpd := r.MinTPD
-		rep.MinimumTangentPlaneDistance = &tpd
+		w.tpd = r.MinTPD
+		rep.MinimumTangentPlaneDistance = &w.tpd
 		rep.StabilityPhaseCount = uint32(r.Phases)
 	}
 	rep.Converged = r.Converged
 	rep.InputQuantizationRelativeTolerance = quant
-	return rep
 }
 
 // optionalProps holds the optional single-phase properties of one
@@ -171,6 +226,7 @@ type optionalProps [5]float64
 // derivative properties are left absent where the model gives no finite
 // value; a non-finite required value makes ok false.
 func wireProperties(p *eos.Properties, dst *fugadv1.Properties, opt *optionalProps) (ok bool) {
+	*dst = fugadv1.Properties{} // dst may be reused (wireTP)
 	dst.CompressibilityFactor = p.Z
 	dst.MolarVolumeM3PerMol = p.MolarVolume
 	dst.MolarDensityMolPerM3 = p.MolarDensity
@@ -206,56 +262,84 @@ func wireProperties(p *eos.Properties, dst *fugadv1.Properties, opt *optionalPro
 // Z = P·v/(R·T) and no heat capacities or other derivatives. It returns nil
 // when a number is not finite, which a validated request never causes.
 //
-// All float slices of the result share one allocation, as do the phases'
-// messages, to keep the server's share of a flash small.
+// The result owns its memory (the float slices are copied out of r), in
+// two allocations: the message tree and the floats.
 func (s *Server) flashResult(r *flash.Result, rep *fugadv1.SolverReport, props bool) *fugadv1.FlashResult {
+	return new(wireTP).fill(r, rep, props, true)
+}
+
+// wireTP is the memory of one translated flash.Result: the FlashResult
+// message and everything it points to. A flashScratch keeps one for the
+// encoding of its flashes (encodeTP), so that the message of a result
+// that is marshalled at once is built without allocating.
+type wireTP struct {
+	out      fugadv1.FlashResult
+	phases   [flash.MaxPhases]fugadv1.Phase
+	phasePtr [flash.MaxPhases]*fugadv1.Phase
+	props    [flash.MaxPhases + 1]fugadv1.Properties
+	opt      [flash.MaxPhases + 1]optionalProps
+	est      [flash.MaxPhases]fugadv1.PhaseEstimate
+	estPtr   [flash.MaxPhases]*fugadv1.PhaseEstimate
+	warm     fugadv1.WarmStart
+	report   wireReport
+	kv       []float64 // K-values, reused
+	buf      []byte    // encodings, reused
+}
+
+// fill translates r into w's message (see flashResult) and returns it, or
+// nil when a number is not finite. With own the float slices are copied
+// (one allocation); without, they refer to r's, so the message is valid
+// only while r is not reused: for encoding at once.
+func (w *wireTP) fill(r *flash.Result, rep *fugadv1.SolverReport, props, own bool) *fugadv1.FlashResult {
 	m, n := len(r.Phases), len(r.Z)
 	multi := m >= 2
-	floats := 2 * m * n // compositions and ln φ
-	if multi {
-		floats += n // K-values
+	var fbuf []float64
+	if own {
+		floats := 2 * m * n // compositions and ln φ
+		if multi {
+			floats += n // K-values
+		}
+		fbuf = make([]float64, 0, floats)
 	}
-	fbuf := make([]float64, 0, floats)
 	take := func(src []float64) []float64 {
+		if !own {
+			return src[:len(src):len(src)]
+		}
 		start := len(fbuf)
 		fbuf = append(fbuf, src...)
 		return fbuf[start:len(fbuf):len(fbuf)]
 	}
-	out := &fugadv1.FlashResult{TemperatureK: r.T, PressurePa: r.P, Report: rep}
-	phases := make([]fugadv1.Phase, m)
-	estimates := make([]fugadv1.PhaseEstimate, m)
-	out.Phases = make([]*fugadv1.Phase, m)
-	ws := &fugadv1.WarmStart{Phases: make([]*fugadv1.PhaseEstimate, m)}
-	var propBuf []fugadv1.Properties
-	var optBuf []optionalProps
-	if props {
-		propBuf = make([]fugadv1.Properties, m+1)
-		optBuf = make([]optionalProps, m+1)
-	}
+	w.out = fugadv1.FlashResult{TemperatureK: r.T, PressurePa: r.P, Report: rep}
+	out := &w.out
+	out.Phases = w.phasePtr[:m:m]
+	w.warm = fugadv1.WarmStart{Phases: w.estPtr[:m:m]}
 	ok := true
 	for k := range r.Phases {
 		p := &r.Phases[k]
-		ph := &phases[k]
-		ph.Label = wireLabel(p.Label)
-		ph.Amount = p.Beta
-		ph.MoleFractions = take(p.X)
-		ph.LnFugacityCoefficients = take(p.LnPhi)
+		ph := &w.phases[k]
+		*ph = fugadv1.Phase{Label: wireLabel(p.Label), Amount: p.Beta, MoleFractions: take(p.X), LnFugacityCoefficients: take(p.LnPhi)}
 		if props {
-			ok = wireProperties(&p.Props, &propBuf[k], &optBuf[k]) && ok
-			ph.Properties = &propBuf[k]
+			ok = wireProperties(&p.Props, &w.props[k], &w.opt[k]) && ok
+			ph.Properties = &w.props[k]
 		}
-		out.Phases[k] = ph
+		w.phasePtr[k] = ph
 		if p.Label == flash.LabelVapour {
 			out.VapourFraction = p.Beta
 		}
-		e := &estimates[k]
-		e.Label, e.Amount, e.MoleFractions = ph.Label, ph.Amount, ph.MoleFractions
-		ws.Phases[k] = e
+		e := &w.est[k]
+		*e = fugadv1.PhaseEstimate{Label: ph.Label, Amount: ph.Amount, MoleFractions: ph.MoleFractions}
+		w.estPtr[k] = e
 		ok = ok && finite(p.Beta) && allFinite(p.X) && allFinite(p.LnPhi)
 	}
-	out.WarmStart = ws
+	out.WarmStart = &w.warm
 	if multi {
-		kv := take(r.LnK)
+		var kv []float64
+		if own {
+			kv = take(r.LnK)
+		} else {
+			w.kv = append(w.kv[:0], r.LnK...)
+			kv = w.kv[:len(w.kv):len(w.kv)]
+		}
 		for i, l := range kv {
 			kv[i] = math.Exp(l)
 		}
@@ -263,21 +347,25 @@ func (s *Server) flashResult(r *flash.Result, rep *fugadv1.SolverReport, props b
 		ok = ok && allFinite(kv)
 	}
 	if props {
-		ov := &propBuf[m]
+		ov := &w.props[m]
 		if m == 1 {
-			ok = wireProperties(&r.Phases[0].Props, ov, &optBuf[m]) && ok
+			ok = wireProperties(&r.Phases[0].Props, ov, &w.opt[m]) && ok
 		} else {
 			o := &r.Overall
-			ov.CompressibilityFactor = r.P * o.MolarVolume / (eos.R * r.T)
-			ov.MolarVolumeM3PerMol = o.MolarVolume
-			ov.MolarDensityMolPerM3 = o.MolarDensity
-			ov.MassDensityKgPerM3 = o.MassDensity
-			ov.MolarMassKgPerMol = o.MolarMass
-			ov.MolarEnthalpyJPerMol = o.H
-			ov.MolarEntropyJPerMolK = o.S
-			ov.MolarGibbsEnergyJPerMol = o.G
-			ov.MolarInternalEnergyJPerMol = o.U
-			ok = ok && allFinite([]float64{ov.CompressibilityFactor, o.MolarVolume, o.MolarDensity, o.MassDensity, o.MolarMass, o.H, o.S, o.G, o.U})
+			*ov = fugadv1.Properties{
+				CompressibilityFactor:      r.P * o.MolarVolume / (eos.R * r.T),
+				MolarVolumeM3PerMol:        o.MolarVolume,
+				MolarDensityMolPerM3:       o.MolarDensity,
+				MassDensityKgPerM3:         o.MassDensity,
+				MolarMassKgPerMol:          o.MolarMass,
+				MolarEnthalpyJPerMol:       o.H,
+				MolarEntropyJPerMolK:       o.S,
+				MolarGibbsEnergyJPerMol:    o.G,
+				MolarInternalEnergyJPerMol: o.U,
+			}
+			for _, v := range [...]float64{ov.CompressibilityFactor, o.MolarVolume, o.MolarDensity, o.MassDensity, o.MolarMass, o.H, o.S, o.G, o.U} {
+				ok = ok && finite(v)
+			}
 		}
 		out.Overall = ov
 	}

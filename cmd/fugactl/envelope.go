@@ -103,7 +103,7 @@ export compressor discharge marked):
 			}
 			var written []string
 			if svg != "" || png != "" {
-				p, err := envelopePlot(resp, "Phase envelope, "+fd.describe(5), ops, plotAxes{si: si})
+				p, err := envelopePlot(resp, "Phase envelope, "+fd.describe(3), ops, plotAxes{si: si})
 				if err != nil {
 					return err
 				}

@@ -204,7 +204,7 @@ func envelopePlot(resp *fugadv1.PhaseEnvelopeResponse, title string, ops []opera
 	// Room for the labels right of the rightmost marks and above the
 	// cricondenbar, which the automatic range leaves at the edge.
 	xr, yr := p.X.Max-p.X.Min, p.Y.Max-p.Y.Min
-	p.X.Max += 0.12 * xr
+	p.X.Max += 0.2 * xr
 	p.Y.Max += 0.06 * yr
 	return p, nil
 }
@@ -237,7 +237,11 @@ func branchSegments(resp *fugadv1.PhaseEnvelopeResponse) []segment {
 	var segs []segment
 	for _, pt := range resp.GetPoints() {
 		b := pt.GetBranch()
-		if b == fugadv1.EnvelopeBranch_ENVELOPE_BRANCH_UNSPECIFIED {
+		switch b {
+		case fugadv1.EnvelopeBranch_ENVELOPE_BRANCH_CRITICAL:
+			// Drawn as a mark; the branches are joined through it below.
+			continue
+		case fugadv1.EnvelopeBranch_ENVELOPE_BRANCH_UNSPECIFIED:
 			b = fugadv1.EnvelopeBranch_ENVELOPE_BRANCH_DEW
 		}
 		xy := [2]float64{pt.GetTemperatureK(), pt.GetPressurePa()}

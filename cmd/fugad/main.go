@@ -23,7 +23,6 @@ import (
 	"net/http"
 	"os"
 	"os/signal"
-	"runtime"
 	"strings"
 	"syscall"
 	"time"
@@ -68,7 +67,7 @@ func parseConfig(args []string, getenv func(string) string, stderr io.Writer) (*
 	fs.BoolVar(&c.Reflection, "reflection", true, "register the gRPC server reflection service")
 	fs.DurationVar(&c.DrainDelay, "drain-delay", 0, "time between health turning NOT_SERVING and the graceful stop")
 	fs.DurationVar(&c.Drain, "drain-timeout", server.DefaultDrainTimeout, "bound on the graceful stop before a hard stop")
-	fs.IntVar(&c.Server.MaxConcurrentSolves, "max-concurrent-solves", runtime.GOMAXPROCS(0), "solves running at once; excess calls get UNAVAILABLE")
+	fs.IntVar(&c.Server.MaxConcurrentSolves, "max-concurrent-solves", server.DefaultMaxConcurrentSolves(), "solver slots: calls answered at once (default GOMAXPROCS−1, at least 1, leaving a processor to the RPC layer); excess calls get UNAVAILABLE at once")
 	fs.IntVar(&c.Server.MaxComponents, "max-components", server.DefaultMaxComponents, "components per fluid")
 	fs.IntVar(&c.Server.MaxBatchStates, "max-batch-states", server.DefaultMaxBatchStates, "states per FlashBatch call")
 	fs.IntVar(&c.Server.MaxEnvelopePoints, "max-envelope-points", server.DefaultMaxEnvelopePoints, "points per phase envelope")

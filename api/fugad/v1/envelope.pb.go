@@ -31,6 +31,13 @@ const (
 	EnvelopeBranch_ENVELOPE_BRANCH_DEW EnvelopeBranch = 1
 	// Bubble-point branch (liquid feed, incipient vapour).
 	EnvelopeBranch_ENVELOPE_BRANCH_BUBBLE EnvelopeBranch = 2
+	// A mixture critical point where the trace crosses it (all K-values 1).
+	EnvelopeBranch_ENVELOPE_BRANCH_CRITICAL EnvelopeBranch = 3
+	// A pure component's vapour-pressure curve, where the bubble and dew
+	// points coincide.
+	EnvelopeBranch_ENVELOPE_BRANCH_SATURATED EnvelopeBranch = 4
+	// A point of a quality line (vapour fraction strictly within (0, 1)).
+	EnvelopeBranch_ENVELOPE_BRANCH_QUALITY EnvelopeBranch = 5
 )
 
 // Enum value maps for EnvelopeBranch.
@@ -39,11 +46,17 @@ var (
 		0: "ENVELOPE_BRANCH_UNSPECIFIED",
 		1: "ENVELOPE_BRANCH_DEW",
 		2: "ENVELOPE_BRANCH_BUBBLE",
+		3: "ENVELOPE_BRANCH_CRITICAL",
+		4: "ENVELOPE_BRANCH_SATURATED",
+		5: "ENVELOPE_BRANCH_QUALITY",
 	}
 	EnvelopeBranch_value = map[string]int32{
 		"ENVELOPE_BRANCH_UNSPECIFIED": 0,
 		"ENVELOPE_BRANCH_DEW":         1,
 		"ENVELOPE_BRANCH_BUBBLE":      2,
+		"ENVELOPE_BRANCH_CRITICAL":    3,
+		"ENVELOPE_BRANCH_SATURATED":   4,
+		"ENVELOPE_BRANCH_QUALITY":     5,
 	}
 )
 
@@ -74,6 +87,83 @@ func (EnvelopeBranch) EnumDescriptor() ([]byte, []int) {
 	return file_fugad_v1_envelope_proto_rawDescGZIP(), []int{0}
 }
 
+// EnvelopeStop says why the trace of one line ended.
+type EnvelopeStop int32
+
+const (
+	// Not reported.
+	EnvelopeStop_ENVELOPE_STOP_UNSPECIFIED EnvelopeStop = 0
+	// The normal end of the envelope: the bubble branch came back down to
+	// start_pressure_pa.
+	EnvelopeStop_ENVELOPE_STOP_LOW_PRESSURE EnvelopeStop = 1
+	// The normal end of a quality line: it reached the critical point.
+	EnvelopeStop_ENVELOPE_STOP_CRITICAL_POINT EnvelopeStop = 2
+	// The normal end of a pure component's vapour-pressure curve: its
+	// critical point.
+	EnvelopeStop_ENVELOPE_STOP_PURE_CRITICAL EnvelopeStop = 3
+	// The boundary rose above maximum_pressure_pa without closing.
+	EnvelopeStop_ENVELOPE_STOP_MAXIMUM_PRESSURE EnvelopeStop = 4
+	// The boundary fell below the solver's minimum temperature (10 K).
+	EnvelopeStop_ENVELOPE_STOP_MINIMUM_TEMPERATURE EnvelopeStop = 5
+	// The line reached max_points.
+	EnvelopeStop_ENVELOPE_STOP_MAXIMUM_POINTS EnvelopeStop = 6
+	// Newton failed at ever smaller steps. The envelope is then answered
+	// with ABORTED, reason NOT_CONVERGED, and the points traced so far in
+	// the NotConvergedDetail.
+	EnvelopeStop_ENVELOPE_STOP_STEP_CUTS EnvelopeStop = 7
+)
+
+// Enum value maps for EnvelopeStop.
+var (
+	EnvelopeStop_name = map[int32]string{
+		0: "ENVELOPE_STOP_UNSPECIFIED",
+		1: "ENVELOPE_STOP_LOW_PRESSURE",
+		2: "ENVELOPE_STOP_CRITICAL_POINT",
+		3: "ENVELOPE_STOP_PURE_CRITICAL",
+		4: "ENVELOPE_STOP_MAXIMUM_PRESSURE",
+		5: "ENVELOPE_STOP_MINIMUM_TEMPERATURE",
+		6: "ENVELOPE_STOP_MAXIMUM_POINTS",
+		7: "ENVELOPE_STOP_STEP_CUTS",
+	}
+	EnvelopeStop_value = map[string]int32{
+		"ENVELOPE_STOP_UNSPECIFIED":         0,
+		"ENVELOPE_STOP_LOW_PRESSURE":        1,
+		"ENVELOPE_STOP_CRITICAL_POINT":      2,
+		"ENVELOPE_STOP_PURE_CRITICAL":       3,
+		"ENVELOPE_STOP_MAXIMUM_PRESSURE":    4,
+		"ENVELOPE_STOP_MINIMUM_TEMPERATURE": 5,
+		"ENVELOPE_STOP_MAXIMUM_POINTS":      6,
+		"ENVELOPE_STOP_STEP_CUTS":           7,
+	}
+)
+
+func (x EnvelopeStop) Enum() *EnvelopeStop {
+	p := new(EnvelopeStop)
+	*p = x
+	return p
+}
+
+func (x EnvelopeStop) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (EnvelopeStop) Descriptor() protoreflect.EnumDescriptor {
+	return file_fugad_v1_envelope_proto_enumTypes[1].Descriptor()
+}
+
+func (EnvelopeStop) Type() protoreflect.EnumType {
+	return &file_fugad_v1_envelope_proto_enumTypes[1]
+}
+
+func (x EnvelopeStop) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use EnvelopeStop.Descriptor instead.
+func (EnvelopeStop) EnumDescriptor() ([]byte, []int) {
+	return file_fugad_v1_envelope_proto_rawDescGZIP(), []int{1}
+}
+
 // PhaseEnvelopeRequest asks for the two-phase boundary of a feed in the
 // temperature–pressure plane.
 type PhaseEnvelopeRequest struct {
@@ -89,16 +179,23 @@ type PhaseEnvelopeRequest struct {
 	StartPressurePa float64 `protobuf:"fixed64,3,opt,name=start_pressure_pa,json=startPressurePa,proto3" json:"start_pressure_pa,omitempty"`
 	// Pressure above which tracing stops, Pa. Zero selects 1e8 Pa.
 	MaximumPressurePa float64 `protobuf:"fixed64,4,opt,name=maximum_pressure_pa,json=maximumPressurePa,proto3" json:"maximum_pressure_pa,omitempty"`
-	// Cap on the number of points returned. Zero selects the server's
-	// limit (default 2000); a value above the limit is rejected with
-	// INVALID_ARGUMENT.
+	// Cap on the points of each traced line (the envelope and each quality
+	// line), critical points included. Zero selects the server's limit
+	// (default 2000); a value above the limit is rejected with
+	// INVALID_ARGUMENT, reason LIMIT_EXCEEDED, field max_points. A trace
+	// that reaches the cap ends with complete = false and trace.stop =
+	// ENVELOPE_STOP_MAXIMUM_POINTS.
 	MaxPoints uint32 `protobuf:"varint,5,opt,name=max_points,json=maxPoints,proto3" json:"max_points,omitempty"`
 	// Solver options for each point.
 	Options *SolverOptions `protobuf:"bytes,6,opt,name=options,proto3" json:"options,omitempty"`
 	// Skip the result cache.
-	BypassCache   bool `protobuf:"varint,7,opt,name=bypass_cache,json=bypassCache,proto3" json:"bypass_cache,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	BypassCache bool `protobuf:"varint,7,opt,name=bypass_cache,json=bypassCache,proto3" json:"bypass_cache,omitempty"`
+	// Vapour fractions whose lines of constant vapour fraction (quality
+	// lines) are traced as well, from start_pressure_pa to the critical
+	// point: at most 9, each strictly within (0, 1) and all different.
+	QualityVapourFractions []float64 `protobuf:"fixed64,8,rep,packed,name=quality_vapour_fractions,json=qualityVapourFractions,proto3" json:"quality_vapour_fractions,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
 }
 
 func (x *PhaseEnvelopeRequest) Reset() {
@@ -180,6 +277,13 @@ func (x *PhaseEnvelopeRequest) GetBypassCache() bool {
 	return false
 }
 
+func (x *PhaseEnvelopeRequest) GetQualityVapourFractions() []float64 {
+	if x != nil {
+		return x.QualityVapourFractions
+	}
+	return nil
+}
+
 // EnvelopePoint is one saturation point on the envelope.
 type EnvelopePoint struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -189,10 +293,31 @@ type EnvelopePoint struct {
 	PressurePa float64 `protobuf:"fixed64,2,opt,name=pressure_pa,json=pressurePa,proto3" json:"pressure_pa,omitempty"`
 	// Branch of the point.
 	Branch EnvelopeBranch `protobuf:"varint,3,opt,name=branch,proto3,enum=fugad.v1.EnvelopeBranch" json:"branch,omitempty"`
-	// K-values y_i/x_i, in component order.
-	KValues       []float64 `protobuf:"fixed64,4,rep,packed,name=k_values,json=kValues,proto3" json:"k_values,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// K-values in component order, in the tracing convention: y_i/x_i
+	// with y the phase of the line's vapour fraction (the feed itself on
+	// the envelope, so x = z/K is the incipient phase on both branches and
+	// the K-values pass through 1 at the critical point). All 1 at a
+	// critical point; empty for the cricondenbar and cricondentherm.
+	KValues []float64 `protobuf:"fixed64,4,rep,packed,name=k_values,json=kValues,proto3" json:"k_values,omitempty"`
+	// Newton iterations the point took (for the cricondenbar and
+	// cricondentherm: the secant steps of their refinement, each a
+	// converged point).
+	Iterations uint32 `protobuf:"varint,5,opt,name=iterations,proto3" json:"iterations,omitempty"`
+	// Whether the feed at this temperature and pressure is unstable against
+	// a phase other than the incipient one (for example a second liquid or
+	// water): the point is then on the metastable continuation of the
+	// vapour–liquid boundary, not on the phase boundary of the equilibrium
+	// system, and a T–P flash just outside the envelope there finds two or
+	// three phases. Only points with third_phase_tangent_plane_distance set
+	// were tested.
+	Metastable bool `protobuf:"varint,6,opt,name=metastable,proto3" json:"metastable,omitempty"`
+	// Smallest tangent-plane distance of the feed at this point found by the
+	// third-phase test away from the feed and the incipient phase, in units
+	// of RT (dimensionless): negative where metastable. Absent where the
+	// point was not tested (quality lines, critical points, extrema).
+	ThirdPhaseTangentPlaneDistance *float64 `protobuf:"fixed64,7,opt,name=third_phase_tangent_plane_distance,json=thirdPhaseTangentPlaneDistance,proto3,oneof" json:"third_phase_tangent_plane_distance,omitempty"`
+	unknownFields                  protoimpl.UnknownFields
+	sizeCache                      protoimpl.SizeCache
 }
 
 func (x *EnvelopePoint) Reset() {
@@ -253,6 +378,27 @@ func (x *EnvelopePoint) GetKValues() []float64 {
 	return nil
 }
 
+func (x *EnvelopePoint) GetIterations() uint32 {
+	if x != nil {
+		return x.Iterations
+	}
+	return 0
+}
+
+func (x *EnvelopePoint) GetMetastable() bool {
+	if x != nil {
+		return x.Metastable
+	}
+	return false
+}
+
+func (x *EnvelopePoint) GetThirdPhaseTangentPlaneDistance() float64 {
+	if x != nil && x.ThirdPhaseTangentPlaneDistance != nil {
+		return *x.ThirdPhaseTangentPlaneDistance
+	}
+	return 0
+}
+
 // CriticalPoint is a mixture critical point found on the envelope.
 type CriticalPoint struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -260,10 +406,14 @@ type CriticalPoint struct {
 	TemperatureK float64 `protobuf:"fixed64,1,opt,name=temperature_k,json=temperatureK,proto3" json:"temperature_k,omitempty"`
 	// Critical pressure, Pa.
 	PressurePa float64 `protobuf:"fixed64,2,opt,name=pressure_pa,json=pressurePa,proto3" json:"pressure_pa,omitempty"`
-	// Critical molar volume, m³/mol.
+	// Molar volume of the feed at the critical temperature and pressure on
+	// the equation of state (root of least Gibbs energy; translated when
+	// the fluid translates volumes), m³/mol.
 	MolarVolumeM3PerMol float64 `protobuf:"fixed64,3,opt,name=molar_volume_m3_per_mol,json=molarVolumeM3PerMol,proto3" json:"molar_volume_m3_per_mol,omitempty"`
-	unknownFields       protoimpl.UnknownFields
-	sizeCache           protoimpl.SizeCache
+	// Index of the point in PhaseEnvelopeResponse.points that is this critical point.
+	PointIndex    uint32 `protobuf:"varint,4,opt,name=point_index,json=pointIndex,proto3" json:"point_index,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *CriticalPoint) Reset() {
@@ -317,30 +467,293 @@ func (x *CriticalPoint) GetMolarVolumeM3PerMol() float64 {
 	return 0
 }
 
+func (x *CriticalPoint) GetPointIndex() uint32 {
+	if x != nil {
+		return x.PointIndex
+	}
+	return 0
+}
+
+// EnvelopeTrace says what the trace of one line did.
+type EnvelopeTrace struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// Converged points of the line, critical points included.
+	Points uint32 `protobuf:"varint,1,opt,name=points,proto3" json:"points,omitempty"`
+	// Newton iterations, including those of rejected steps and of the
+	// critical-point and extremum refinements.
+	NewtonIterations uint64 `protobuf:"varint,2,opt,name=newton_iterations,json=newtonIterations,proto3" json:"newton_iterations,omitempty"`
+	// Most Newton iterations any accepted point took.
+	MaxIterationsPerPoint uint32 `protobuf:"varint,3,opt,name=max_iterations_per_point,json=maxIterationsPerPoint,proto3" json:"max_iterations_per_point,omitempty"`
+	// Steps halved after a failed Newton solve.
+	StepCuts uint32 `protobuf:"varint,4,opt,name=step_cuts,json=stepCuts,proto3" json:"step_cuts,omitempty"`
+	// Failed Newton solves (every step cut follows one).
+	Failures uint32 `protobuf:"varint,5,opt,name=failures,proto3" json:"failures,omitempty"`
+	// Why the trace ended.
+	Stop EnvelopeStop `protobuf:"varint,6,opt,name=stop,proto3,enum=fugad.v1.EnvelopeStop" json:"stop,omitempty"`
+	// The numbers behind stop, in words (for people, not for parsing).
+	StopDetail string `protobuf:"bytes,7,opt,name=stop_detail,json=stopDetail,proto3" json:"stop_detail,omitempty"`
+	// Temperature of the last converged point, K.
+	LastTemperatureK float64 `protobuf:"fixed64,8,opt,name=last_temperature_k,json=lastTemperatureK,proto3" json:"last_temperature_k,omitempty"`
+	// Pressure of the last converged point, Pa.
+	LastPressurePa float64 `protobuf:"fixed64,9,opt,name=last_pressure_pa,json=lastPressurePa,proto3" json:"last_pressure_pa,omitempty"`
+	// Points the third-phase test found metastable, and the span of their
+	// temperatures (K) and pressures (Pa); all zero when there are none.
+	MetastablePoints uint32 `protobuf:"varint,10,opt,name=metastable_points,json=metastablePoints,proto3" json:"metastable_points,omitempty"`
+	// Lowest temperature of a metastable point, K.
+	MetastableMinimumTemperatureK float64 `protobuf:"fixed64,11,opt,name=metastable_minimum_temperature_k,json=metastableMinimumTemperatureK,proto3" json:"metastable_minimum_temperature_k,omitempty"`
+	// Highest temperature of a metastable point, K.
+	MetastableMaximumTemperatureK float64 `protobuf:"fixed64,12,opt,name=metastable_maximum_temperature_k,json=metastableMaximumTemperatureK,proto3" json:"metastable_maximum_temperature_k,omitempty"`
+	// Lowest pressure of a metastable point, Pa.
+	MetastableMinimumPressurePa float64 `protobuf:"fixed64,13,opt,name=metastable_minimum_pressure_pa,json=metastableMinimumPressurePa,proto3" json:"metastable_minimum_pressure_pa,omitempty"`
+	// Highest pressure of a metastable point, Pa.
+	MetastableMaximumPressurePa float64 `protobuf:"fixed64,14,opt,name=metastable_maximum_pressure_pa,json=metastableMaximumPressurePa,proto3" json:"metastable_maximum_pressure_pa,omitempty"`
+	// Evaluations of ln φ spent on the line (third-phase test included).
+	LnPhiEvaluations uint64 `protobuf:"varint,15,opt,name=ln_phi_evaluations,json=lnPhiEvaluations,proto3" json:"ln_phi_evaluations,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
+}
+
+func (x *EnvelopeTrace) Reset() {
+	*x = EnvelopeTrace{}
+	mi := &file_fugad_v1_envelope_proto_msgTypes[3]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *EnvelopeTrace) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*EnvelopeTrace) ProtoMessage() {}
+
+func (x *EnvelopeTrace) ProtoReflect() protoreflect.Message {
+	mi := &file_fugad_v1_envelope_proto_msgTypes[3]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use EnvelopeTrace.ProtoReflect.Descriptor instead.
+func (*EnvelopeTrace) Descriptor() ([]byte, []int) {
+	return file_fugad_v1_envelope_proto_rawDescGZIP(), []int{3}
+}
+
+func (x *EnvelopeTrace) GetPoints() uint32 {
+	if x != nil {
+		return x.Points
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetNewtonIterations() uint64 {
+	if x != nil {
+		return x.NewtonIterations
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetMaxIterationsPerPoint() uint32 {
+	if x != nil {
+		return x.MaxIterationsPerPoint
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetStepCuts() uint32 {
+	if x != nil {
+		return x.StepCuts
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetFailures() uint32 {
+	if x != nil {
+		return x.Failures
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetStop() EnvelopeStop {
+	if x != nil {
+		return x.Stop
+	}
+	return EnvelopeStop_ENVELOPE_STOP_UNSPECIFIED
+}
+
+func (x *EnvelopeTrace) GetStopDetail() string {
+	if x != nil {
+		return x.StopDetail
+	}
+	return ""
+}
+
+func (x *EnvelopeTrace) GetLastTemperatureK() float64 {
+	if x != nil {
+		return x.LastTemperatureK
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetLastPressurePa() float64 {
+	if x != nil {
+		return x.LastPressurePa
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetMetastablePoints() uint32 {
+	if x != nil {
+		return x.MetastablePoints
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetMetastableMinimumTemperatureK() float64 {
+	if x != nil {
+		return x.MetastableMinimumTemperatureK
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetMetastableMaximumTemperatureK() float64 {
+	if x != nil {
+		return x.MetastableMaximumTemperatureK
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetMetastableMinimumPressurePa() float64 {
+	if x != nil {
+		return x.MetastableMinimumPressurePa
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetMetastableMaximumPressurePa() float64 {
+	if x != nil {
+		return x.MetastableMaximumPressurePa
+	}
+	return 0
+}
+
+func (x *EnvelopeTrace) GetLnPhiEvaluations() uint64 {
+	if x != nil {
+		return x.LnPhiEvaluations
+	}
+	return 0
+}
+
+// QualityLine is a traced line of constant vapour fraction.
+type QualityLine struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The vapour fraction of the line, strictly within (0, 1).
+	VapourFraction float64 `protobuf:"fixed64,1,opt,name=vapour_fraction,json=vapourFraction,proto3" json:"vapour_fraction,omitempty"`
+	// Points from start_pressure_pa to the critical point, branch
+	// ENVELOPE_BRANCH_QUALITY; the K-values are y_i/x_i of the vapour over
+	// the liquid.
+	Points []*EnvelopePoint `protobuf:"bytes,2,rep,name=points,proto3" json:"points,omitempty"`
+	// What the trace of the line did.
+	Trace         *EnvelopeTrace `protobuf:"bytes,3,opt,name=trace,proto3" json:"trace,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *QualityLine) Reset() {
+	*x = QualityLine{}
+	mi := &file_fugad_v1_envelope_proto_msgTypes[4]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *QualityLine) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*QualityLine) ProtoMessage() {}
+
+func (x *QualityLine) ProtoReflect() protoreflect.Message {
+	mi := &file_fugad_v1_envelope_proto_msgTypes[4]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use QualityLine.ProtoReflect.Descriptor instead.
+func (*QualityLine) Descriptor() ([]byte, []int) {
+	return file_fugad_v1_envelope_proto_rawDescGZIP(), []int{4}
+}
+
+func (x *QualityLine) GetVapourFraction() float64 {
+	if x != nil {
+		return x.VapourFraction
+	}
+	return 0
+}
+
+func (x *QualityLine) GetPoints() []*EnvelopePoint {
+	if x != nil {
+		return x.Points
+	}
+	return nil
+}
+
+func (x *QualityLine) GetTrace() *EnvelopeTrace {
+	if x != nil {
+		return x.Trace
+	}
+	return nil
+}
+
 // PhaseEnvelopeResponse is the traced envelope.
 type PhaseEnvelopeResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Points in tracing order: from the low-pressure dew point, over the
 	// cricondentherm and critical point(s), to the low-pressure bubble point.
+	// Points before the first critical point are dew points, points after it
+	// bubble points (each further critical point swaps the label again); the
+	// critical points themselves are included with branch
+	// ENVELOPE_BRANCH_CRITICAL. For a pure component: its vapour-pressure
+	// curve up to its critical point, branch ENVELOPE_BRANCH_SATURATED.
 	Points []*EnvelopePoint `protobuf:"bytes,1,rep,name=points,proto3" json:"points,omitempty"`
 	// Critical points crossed, in tracing order; empty when none was found.
 	CriticalPoints []*CriticalPoint `protobuf:"bytes,2,rep,name=critical_points,json=criticalPoints,proto3" json:"critical_points,omitempty"`
-	// Point of maximum pressure on the envelope.
+	// Point of maximum pressure on the envelope, solved as dP/dT = 0 along
+	// it; absent when the trace did not pass it.
 	Cricondenbar *EnvelopePoint `protobuf:"bytes,3,opt,name=cricondenbar,proto3" json:"cricondenbar,omitempty"`
-	// Point of maximum temperature on the envelope.
+	// Point of maximum temperature on the envelope, solved as dT/dP = 0
+	// along it; absent when the trace did not pass it.
 	Cricondentherm *EnvelopePoint `protobuf:"bytes,4,opt,name=cricondentherm,proto3" json:"cricondentherm,omitempty"`
 	// Whether the trace closed (reached the start pressure on the bubble
-	// branch); false when it stopped at max_points or maximum_pressure_pa.
+	// branch, or a pure component's critical point); false when it stopped
+	// at max_points, maximum_pressure_pa or the minimum temperature (see
+	// trace.stop).
 	Complete bool `protobuf:"varint,5,opt,name=complete,proto3" json:"complete,omitempty"`
-	// What the solver did, summed over all points.
-	Report        *SolverReport `protobuf:"bytes,6,opt,name=report,proto3" json:"report,omitempty"`
+	// What the solver did, summed over all lines: stage ENVELOPE counts the
+	// Newton iterations, ln_phi_evaluations every evaluation.
+	Report *SolverReport `protobuf:"bytes,6,opt,name=report,proto3" json:"report,omitempty"`
+	// What the trace of the envelope did: points, iterations, step cuts,
+	// failures and why it stopped.
+	Trace *EnvelopeTrace `protobuf:"bytes,7,opt,name=trace,proto3" json:"trace,omitempty"`
+	// The quality lines asked for in quality_vapour_fractions, in request
+	// order.
+	QualityLines  []*QualityLine `protobuf:"bytes,8,rep,name=quality_lines,json=qualityLines,proto3" json:"quality_lines,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *PhaseEnvelopeResponse) Reset() {
 	*x = PhaseEnvelopeResponse{}
-	mi := &file_fugad_v1_envelope_proto_msgTypes[3]
+	mi := &file_fugad_v1_envelope_proto_msgTypes[5]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -352,7 +765,7 @@ func (x *PhaseEnvelopeResponse) String() string {
 func (*PhaseEnvelopeResponse) ProtoMessage() {}
 
 func (x *PhaseEnvelopeResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fugad_v1_envelope_proto_msgTypes[3]
+	mi := &file_fugad_v1_envelope_proto_msgTypes[5]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -365,7 +778,7 @@ func (x *PhaseEnvelopeResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use PhaseEnvelopeResponse.ProtoReflect.Descriptor instead.
 func (*PhaseEnvelopeResponse) Descriptor() ([]byte, []int) {
-	return file_fugad_v1_envelope_proto_rawDescGZIP(), []int{3}
+	return file_fugad_v1_envelope_proto_rawDescGZIP(), []int{5}
 }
 
 func (x *PhaseEnvelopeResponse) GetPoints() []*EnvelopePoint {
@@ -410,11 +823,25 @@ func (x *PhaseEnvelopeResponse) GetReport() *SolverReport {
 	return nil
 }
 
+func (x *PhaseEnvelopeResponse) GetTrace() *EnvelopeTrace {
+	if x != nil {
+		return x.Trace
+	}
+	return nil
+}
+
+func (x *PhaseEnvelopeResponse) GetQualityLines() []*QualityLine {
+	if x != nil {
+		return x.QualityLines
+	}
+	return nil
+}
+
 var File_fugad_v1_envelope_proto protoreflect.FileDescriptor
 
 const file_fugad_v1_envelope_proto_rawDesc = "" +
 	"\n" +
-	"\x17fugad/v1/envelope.proto\x12\bfugad.v1\x1a\x14fugad/v1/fluid.proto\x1a\x15fugad/v1/solver.proto\"\xb5\x02\n" +
+	"\x17fugad/v1/envelope.proto\x12\bfugad.v1\x1a\x14fugad/v1/fluid.proto\x1a\x15fugad/v1/solver.proto\"\xef\x02\n" +
 	"\x14PhaseEnvelopeRequest\x12%\n" +
 	"\x05fluid\x18\x01 \x01(\v2\x0f.fugad.v1.FluidR\x05fluid\x12%\n" +
 	"\x0emole_fractions\x18\x02 \x03(\x01R\rmoleFractions\x12*\n" +
@@ -423,29 +850,76 @@ const file_fugad_v1_envelope_proto_rawDesc = "" +
 	"\n" +
 	"max_points\x18\x05 \x01(\rR\tmaxPoints\x121\n" +
 	"\aoptions\x18\x06 \x01(\v2\x17.fugad.v1.SolverOptionsR\aoptions\x12!\n" +
-	"\fbypass_cache\x18\a \x01(\bR\vbypassCache\"\xa2\x01\n" +
+	"\fbypass_cache\x18\a \x01(\bR\vbypassCache\x128\n" +
+	"\x18quality_vapour_fractions\x18\b \x03(\x01R\x16qualityVapourFractions\"\xda\x02\n" +
 	"\rEnvelopePoint\x12#\n" +
 	"\rtemperature_k\x18\x01 \x01(\x01R\ftemperatureK\x12\x1f\n" +
 	"\vpressure_pa\x18\x02 \x01(\x01R\n" +
 	"pressurePa\x120\n" +
 	"\x06branch\x18\x03 \x01(\x0e2\x18.fugad.v1.EnvelopeBranchR\x06branch\x12\x19\n" +
-	"\bk_values\x18\x04 \x03(\x01R\akValues\"\x8b\x01\n" +
+	"\bk_values\x18\x04 \x03(\x01R\akValues\x12\x1e\n" +
+	"\n" +
+	"iterations\x18\x05 \x01(\rR\n" +
+	"iterations\x12\x1e\n" +
+	"\n" +
+	"metastable\x18\x06 \x01(\bR\n" +
+	"metastable\x12O\n" +
+	"\"third_phase_tangent_plane_distance\x18\a \x01(\x01H\x00R\x1ethirdPhaseTangentPlaneDistance\x88\x01\x01B%\n" +
+	"#_third_phase_tangent_plane_distance\"\xac\x01\n" +
 	"\rCriticalPoint\x12#\n" +
 	"\rtemperature_k\x18\x01 \x01(\x01R\ftemperatureK\x12\x1f\n" +
 	"\vpressure_pa\x18\x02 \x01(\x01R\n" +
 	"pressurePa\x124\n" +
-	"\x17molar_volume_m3_per_mol\x18\x03 \x01(\x01R\x13molarVolumeM3PerMol\"\xd4\x02\n" +
+	"\x17molar_volume_m3_per_mol\x18\x03 \x01(\x01R\x13molarVolumeM3PerMol\x12\x1f\n" +
+	"\vpoint_index\x18\x04 \x01(\rR\n" +
+	"pointIndex\"\xe2\x05\n" +
+	"\rEnvelopeTrace\x12\x16\n" +
+	"\x06points\x18\x01 \x01(\rR\x06points\x12+\n" +
+	"\x11newton_iterations\x18\x02 \x01(\x04R\x10newtonIterations\x127\n" +
+	"\x18max_iterations_per_point\x18\x03 \x01(\rR\x15maxIterationsPerPoint\x12\x1b\n" +
+	"\tstep_cuts\x18\x04 \x01(\rR\bstepCuts\x12\x1a\n" +
+	"\bfailures\x18\x05 \x01(\rR\bfailures\x12*\n" +
+	"\x04stop\x18\x06 \x01(\x0e2\x16.fugad.v1.EnvelopeStopR\x04stop\x12\x1f\n" +
+	"\vstop_detail\x18\a \x01(\tR\n" +
+	"stopDetail\x12,\n" +
+	"\x12last_temperature_k\x18\b \x01(\x01R\x10lastTemperatureK\x12(\n" +
+	"\x10last_pressure_pa\x18\t \x01(\x01R\x0elastPressurePa\x12+\n" +
+	"\x11metastable_points\x18\n" +
+	" \x01(\rR\x10metastablePoints\x12G\n" +
+	" metastable_minimum_temperature_k\x18\v \x01(\x01R\x1dmetastableMinimumTemperatureK\x12G\n" +
+	" metastable_maximum_temperature_k\x18\f \x01(\x01R\x1dmetastableMaximumTemperatureK\x12C\n" +
+	"\x1emetastable_minimum_pressure_pa\x18\r \x01(\x01R\x1bmetastableMinimumPressurePa\x12C\n" +
+	"\x1emetastable_maximum_pressure_pa\x18\x0e \x01(\x01R\x1bmetastableMaximumPressurePa\x12,\n" +
+	"\x12ln_phi_evaluations\x18\x0f \x01(\x04R\x10lnPhiEvaluations\"\x96\x01\n" +
+	"\vQualityLine\x12'\n" +
+	"\x0fvapour_fraction\x18\x01 \x01(\x01R\x0evapourFraction\x12/\n" +
+	"\x06points\x18\x02 \x03(\v2\x17.fugad.v1.EnvelopePointR\x06points\x12-\n" +
+	"\x05trace\x18\x03 \x01(\v2\x17.fugad.v1.EnvelopeTraceR\x05trace\"\xbf\x03\n" +
 	"\x15PhaseEnvelopeResponse\x12/\n" +
 	"\x06points\x18\x01 \x03(\v2\x17.fugad.v1.EnvelopePointR\x06points\x12@\n" +
 	"\x0fcritical_points\x18\x02 \x03(\v2\x17.fugad.v1.CriticalPointR\x0ecriticalPoints\x12;\n" +
 	"\fcricondenbar\x18\x03 \x01(\v2\x17.fugad.v1.EnvelopePointR\fcricondenbar\x12?\n" +
 	"\x0ecricondentherm\x18\x04 \x01(\v2\x17.fugad.v1.EnvelopePointR\x0ecricondentherm\x12\x1a\n" +
 	"\bcomplete\x18\x05 \x01(\bR\bcomplete\x12.\n" +
-	"\x06report\x18\x06 \x01(\v2\x16.fugad.v1.SolverReportR\x06report*f\n" +
+	"\x06report\x18\x06 \x01(\v2\x16.fugad.v1.SolverReportR\x06report\x12-\n" +
+	"\x05trace\x18\a \x01(\v2\x17.fugad.v1.EnvelopeTraceR\x05trace\x12:\n" +
+	"\rquality_lines\x18\b \x03(\v2\x15.fugad.v1.QualityLineR\fqualityLines*\xc0\x01\n" +
 	"\x0eEnvelopeBranch\x12\x1f\n" +
 	"\x1bENVELOPE_BRANCH_UNSPECIFIED\x10\x00\x12\x17\n" +
 	"\x13ENVELOPE_BRANCH_DEW\x10\x01\x12\x1a\n" +
-	"\x16ENVELOPE_BRANCH_BUBBLE\x10\x02B-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3"
+	"\x16ENVELOPE_BRANCH_BUBBLE\x10\x02\x12\x1c\n" +
+	"\x18ENVELOPE_BRANCH_CRITICAL\x10\x03\x12\x1d\n" +
+	"\x19ENVELOPE_BRANCH_SATURATED\x10\x04\x12\x1b\n" +
+	"\x17ENVELOPE_BRANCH_QUALITY\x10\x05*\x9a\x02\n" +
+	"\fEnvelopeStop\x12\x1d\n" +
+	"\x19ENVELOPE_STOP_UNSPECIFIED\x10\x00\x12\x1e\n" +
+	"\x1aENVELOPE_STOP_LOW_PRESSURE\x10\x01\x12 \n" +
+	"\x1cENVELOPE_STOP_CRITICAL_POINT\x10\x02\x12\x1f\n" +
+	"\x1bENVELOPE_STOP_PURE_CRITICAL\x10\x03\x12\"\n" +
+	"\x1eENVELOPE_STOP_MAXIMUM_PRESSURE\x10\x04\x12%\n" +
+	"!ENVELOPE_STOP_MINIMUM_TEMPERATURE\x10\x05\x12 \n" +
+	"\x1cENVELOPE_STOP_MAXIMUM_POINTS\x10\x06\x12\x1b\n" +
+	"\x17ENVELOPE_STOP_STEP_CUTS\x10\aB-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3"
 
 var (
 	file_fugad_v1_envelope_proto_rawDescOnce sync.Once
@@ -459,32 +933,40 @@ func file_fugad_v1_envelope_proto_rawDescGZIP() []byte {
 	return file_fugad_v1_envelope_proto_rawDescData
 }
 
-var file_fugad_v1_envelope_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
-var file_fugad_v1_envelope_proto_msgTypes = make([]protoimpl.MessageInfo, 4)
+var file_fugad_v1_envelope_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
+var file_fugad_v1_envelope_proto_msgTypes = make([]protoimpl.MessageInfo, 6)
 var file_fugad_v1_envelope_proto_goTypes = []any{
 	(EnvelopeBranch)(0),           // 0: fugad.v1.EnvelopeBranch
-	(*PhaseEnvelopeRequest)(nil),  // 1: fugad.v1.PhaseEnvelopeRequest
-	(*EnvelopePoint)(nil),         // 2: fugad.v1.EnvelopePoint
-	(*CriticalPoint)(nil),         // 3: fugad.v1.CriticalPoint
-	(*PhaseEnvelopeResponse)(nil), // 4: fugad.v1.PhaseEnvelopeResponse
-	(*Fluid)(nil),                 // 5: fugad.v1.Fluid
-	(*SolverOptions)(nil),         // 6: fugad.v1.SolverOptions
-	(*SolverReport)(nil),          // 7: fugad.v1.SolverReport
+	(EnvelopeStop)(0),             // 1: fugad.v1.EnvelopeStop
+	(*PhaseEnvelopeRequest)(nil),  // 2: fugad.v1.PhaseEnvelopeRequest
+	(*EnvelopePoint)(nil),         // 3: fugad.v1.EnvelopePoint
+	(*CriticalPoint)(nil),         // 4: fugad.v1.CriticalPoint
+	(*EnvelopeTrace)(nil),         // 5: fugad.v1.EnvelopeTrace
+	(*QualityLine)(nil),           // 6: fugad.v1.QualityLine
+	(*PhaseEnvelopeResponse)(nil), // 7: fugad.v1.PhaseEnvelopeResponse
+	(*Fluid)(nil),                 // 8: fugad.v1.Fluid
+	(*SolverOptions)(nil),         // 9: fugad.v1.SolverOptions
+	(*SolverReport)(nil),          // 10: fugad.v1.SolverReport
 }
 var file_fugad_v1_envelope_proto_depIdxs = []int32{
-	5, // 0: fugad.v1.PhaseEnvelopeRequest.fluid:type_name -> fugad.v1.Fluid
-	6, // 1: fugad.v1.PhaseEnvelopeRequest.options:type_name -> fugad.v1.SolverOptions
-	0, // 2: fugad.v1.EnvelopePoint.branch:type_name -> fugad.v1.EnvelopeBranch
-	2, // 3: fugad.v1.PhaseEnvelopeResponse.points:type_name -> fugad.v1.EnvelopePoint
-	3, // 4: fugad.v1.PhaseEnvelopeResponse.critical_points:type_name -> fugad.v1.CriticalPoint
-	2, // 5: fugad.v1.PhaseEnvelopeResponse.cricondenbar:type_name -> fugad.v1.EnvelopePoint
-	2, // 6: fugad.v1.PhaseEnvelopeResponse.cricondentherm:type_name -> fugad.v1.EnvelopePoint
-	7, // 7: fugad.v1.PhaseEnvelopeResponse.report:type_name -> fugad.v1.SolverReport
-	8, // [8:8] is the sub-list for method output_type
-	8, // [8:8] is the sub-list for method input_type
-	8, // [8:8] is the sub-list for extension type_name
-	8, // [8:8] is the sub-list for extension extendee
-	0, // [0:8] is the sub-list for field type_name
+	8,  // 0: fugad.v1.PhaseEnvelopeRequest.fluid:type_name -> fugad.v1.Fluid
+	9,  // 1: fugad.v1.PhaseEnvelopeRequest.options:type_name -> fugad.v1.SolverOptions
+	0,  // 2: fugad.v1.EnvelopePoint.branch:type_name -> fugad.v1.EnvelopeBranch
+	1,  // 3: fugad.v1.EnvelopeTrace.stop:type_name -> fugad.v1.EnvelopeStop
+	3,  // 4: fugad.v1.QualityLine.points:type_name -> fugad.v1.EnvelopePoint
+	5,  // 5: fugad.v1.QualityLine.trace:type_name -> fugad.v1.EnvelopeTrace
+	3,  // 6: fugad.v1.PhaseEnvelopeResponse.points:type_name -> fugad.v1.EnvelopePoint
+	4,  // 7: fugad.v1.PhaseEnvelopeResponse.critical_points:type_name -> fugad.v1.CriticalPoint
+	3,  // 8: fugad.v1.PhaseEnvelopeResponse.cricondenbar:type_name -> fugad.v1.EnvelopePoint
+	3,  // 9: fugad.v1.PhaseEnvelopeResponse.cricondentherm:type_name -> fugad.v1.EnvelopePoint
+	10, // 10: fugad.v1.PhaseEnvelopeResponse.report:type_name -> fugad.v1.SolverReport
+	5,  // 11: fugad.v1.PhaseEnvelopeResponse.trace:type_name -> fugad.v1.EnvelopeTrace
+	6,  // 12: fugad.v1.PhaseEnvelopeResponse.quality_lines:type_name -> fugad.v1.QualityLine
+	13, // [13:13] is the sub-list for method output_type
+	13, // [13:13] is the sub-list for method input_type
+	13, // [13:13] is the sub-list for extension type_name
+	13, // [13:13] is the sub-list for extension extendee
+	0,  // [0:13] is the sub-list for field type_name
 }
 
 func init() { file_fugad_v1_envelope_proto_init() }
@@ -494,13 +976,14 @@ func file_fugad_v1_envelope_proto_init() {
 	}
 	file_fugad_v1_fluid_proto_init()
 	file_fugad_v1_solver_proto_init()
+	file_fugad_v1_envelope_proto_msgTypes[1].OneofWrappers = []any{}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fugad_v1_envelope_proto_rawDesc), len(file_fugad_v1_envelope_proto_rawDesc)),
-			NumEnums:      1,
-			NumMessages:   4,
+			NumEnums:      2,
+			NumMessages:   6,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -40,6 +40,7 @@ type NotConvergedDetail struct {
 	//
 	//	*NotConvergedDetail_Flash
 	//	*NotConvergedDetail_Saturation
+	//	*NotConvergedDetail_Envelope
 	BestEstimate  isNotConvergedDetail_BestEstimate `protobuf_oneof:"best_estimate"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -121,6 +122,15 @@ func (x *NotConvergedDetail) GetSaturation() *SaturationPointResponse {
 	return nil
 }
 
+func (x *NotConvergedDetail) GetEnvelope() *PhaseEnvelopeResponse {
+	if x != nil {
+		if x, ok := x.BestEstimate.(*NotConvergedDetail_Envelope); ok {
+			return x.Envelope
+		}
+	}
+	return nil
+}
+
 type isNotConvergedDetail_BestEstimate interface {
 	isNotConvergedDetail_BestEstimate()
 }
@@ -135,15 +145,151 @@ type NotConvergedDetail_Saturation struct {
 	Saturation *SaturationPointResponse `protobuf:"bytes,5,opt,name=saturation,proto3,oneof"`
 }
 
+type NotConvergedDetail_Envelope struct {
+	// The part of a phase envelope traced before the solver failed
+	// (trace.stop says how): every point in it converged.
+	Envelope *PhaseEnvelopeResponse `protobuf:"bytes,6,opt,name=envelope,proto3,oneof"`
+}
+
 func (*NotConvergedDetail_Flash) isNotConvergedDetail_BestEstimate() {}
 
 func (*NotConvergedDetail_Saturation) isNotConvergedDetail_BestEstimate() {}
+
+func (*NotConvergedDetail_Envelope) isNotConvergedDetail_BestEstimate() {}
+
+// NoSaturationDetail is packed into the details of a FAILED_PRECONDITION
+// status with ErrorInfo reason NO_SATURATION_POINT: the request is valid,
+// but the feed has no saturation point (or no two-phase state of the
+// requested vapour fraction) of the requested kind at the specification,
+// for example a dew pressure asked above the cricondentherm or a bubble
+// temperature above the cricondenbar. Retrying the same request gives the
+// same answer.
+type NoSaturationDetail struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The kind asked for: BUBBLE or DEW; UNSPECIFIED for a vapour fraction
+	// strictly within (0, 1).
+	Type SaturationType `protobuf:"varint,1,opt,name=type,proto3,enum=fugad.v1.SaturationType" json:"type,omitempty"`
+	// The vapour fraction asked for: 0 for a bubble point, 1 for a dew
+	// point.
+	VapourFraction float64 `protobuf:"fixed64,2,opt,name=vapour_fraction,json=vapourFraction,proto3" json:"vapour_fraction,omitempty"`
+	// The fixed variable's field ("temperature_k" or "pressure_pa"; for a
+	// flash, the field path of the state's specification).
+	Field string `protobuf:"bytes,3,opt,name=field,proto3" json:"field,omitempty"`
+	// The fixed variable's value, K or Pa.
+	Value float64 `protobuf:"fixed64,4,opt,name=value,proto3" json:"value,omitempty"`
+	// Why there is no point, in words.
+	Reason string `protobuf:"bytes,5,opt,name=reason,proto3" json:"reason,omitempty"`
+	// Cricondentherm of the feed's traced envelope, K and Pa; absent when
+	// no envelope was traced to decide.
+	CricondenthermTemperatureK *float64 `protobuf:"fixed64,6,opt,name=cricondentherm_temperature_k,json=cricondenthermTemperatureK,proto3,oneof" json:"cricondentherm_temperature_k,omitempty"`
+	// Pressure at the cricondentherm, Pa.
+	CricondenthermPressurePa *float64 `protobuf:"fixed64,7,opt,name=cricondentherm_pressure_pa,json=cricondenthermPressurePa,proto3,oneof" json:"cricondentherm_pressure_pa,omitempty"`
+	// Cricondenbar temperature, K; absent when not known.
+	CricondenbarTemperatureK *float64 `protobuf:"fixed64,8,opt,name=cricondenbar_temperature_k,json=cricondenbarTemperatureK,proto3,oneof" json:"cricondenbar_temperature_k,omitempty"`
+	// Cricondenbar pressure, Pa.
+	CricondenbarPressurePa *float64 `protobuf:"fixed64,9,opt,name=cricondenbar_pressure_pa,json=cricondenbarPressurePa,proto3,oneof" json:"cricondenbar_pressure_pa,omitempty"`
+	unknownFields          protoimpl.UnknownFields
+	sizeCache              protoimpl.SizeCache
+}
+
+func (x *NoSaturationDetail) Reset() {
+	*x = NoSaturationDetail{}
+	mi := &file_fugad_v1_errors_proto_msgTypes[1]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *NoSaturationDetail) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*NoSaturationDetail) ProtoMessage() {}
+
+func (x *NoSaturationDetail) ProtoReflect() protoreflect.Message {
+	mi := &file_fugad_v1_errors_proto_msgTypes[1]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use NoSaturationDetail.ProtoReflect.Descriptor instead.
+func (*NoSaturationDetail) Descriptor() ([]byte, []int) {
+	return file_fugad_v1_errors_proto_rawDescGZIP(), []int{1}
+}
+
+func (x *NoSaturationDetail) GetType() SaturationType {
+	if x != nil {
+		return x.Type
+	}
+	return SaturationType_SATURATION_TYPE_UNSPECIFIED
+}
+
+func (x *NoSaturationDetail) GetVapourFraction() float64 {
+	if x != nil {
+		return x.VapourFraction
+	}
+	return 0
+}
+
+func (x *NoSaturationDetail) GetField() string {
+	if x != nil {
+		return x.Field
+	}
+	return ""
+}
+
+func (x *NoSaturationDetail) GetValue() float64 {
+	if x != nil {
+		return x.Value
+	}
+	return 0
+}
+
+func (x *NoSaturationDetail) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+func (x *NoSaturationDetail) GetCricondenthermTemperatureK() float64 {
+	if x != nil && x.CricondenthermTemperatureK != nil {
+		return *x.CricondenthermTemperatureK
+	}
+	return 0
+}
+
+func (x *NoSaturationDetail) GetCricondenthermPressurePa() float64 {
+	if x != nil && x.CricondenthermPressurePa != nil {
+		return *x.CricondenthermPressurePa
+	}
+	return 0
+}
+
+func (x *NoSaturationDetail) GetCricondenbarTemperatureK() float64 {
+	if x != nil && x.CricondenbarTemperatureK != nil {
+		return *x.CricondenbarTemperatureK
+	}
+	return 0
+}
+
+func (x *NoSaturationDetail) GetCricondenbarPressurePa() float64 {
+	if x != nil && x.CricondenbarPressurePa != nil {
+		return *x.CricondenbarPressurePa
+	}
+	return 0
+}
 
 var File_fugad_v1_errors_proto protoreflect.FileDescriptor
 
 const file_fugad_v1_errors_proto_rawDesc = "" +
 	"\n" +
-	"\x15fugad/v1/errors.proto\x12\bfugad.v1\x1a\x14fugad/v1/flash.proto\x1a\x19fugad/v1/saturation.proto\x1a\x15fugad/v1/solver.proto\"\x83\x02\n" +
+	"\x15fugad/v1/errors.proto\x12\bfugad.v1\x1a\x17fugad/v1/envelope.proto\x1a\x14fugad/v1/flash.proto\x1a\x19fugad/v1/saturation.proto\x1a\x15fugad/v1/solver.proto\"\xc2\x02\n" +
 	"\x12NotConvergedDetail\x12\x1a\n" +
 	"\bresidual\x18\x01 \x01(\x01R\bresidual\x12\x1c\n" +
 	"\ttolerance\x18\x02 \x01(\x01R\ttolerance\x12.\n" +
@@ -151,8 +297,23 @@ const file_fugad_v1_errors_proto_rawDesc = "" +
 	"\x05flash\x18\x04 \x01(\v2\x15.fugad.v1.FlashResultH\x00R\x05flash\x12C\n" +
 	"\n" +
 	"saturation\x18\x05 \x01(\v2!.fugad.v1.SaturationPointResponseH\x00R\n" +
-	"saturationB\x0f\n" +
-	"\rbest_estimateB-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3"
+	"saturation\x12=\n" +
+	"\benvelope\x18\x06 \x01(\v2\x1f.fugad.v1.PhaseEnvelopeResponseH\x00R\benvelopeB\x0f\n" +
+	"\rbest_estimate\"\xb7\x04\n" +
+	"\x12NoSaturationDetail\x12,\n" +
+	"\x04type\x18\x01 \x01(\x0e2\x18.fugad.v1.SaturationTypeR\x04type\x12'\n" +
+	"\x0fvapour_fraction\x18\x02 \x01(\x01R\x0evapourFraction\x12\x14\n" +
+	"\x05field\x18\x03 \x01(\tR\x05field\x12\x14\n" +
+	"\x05value\x18\x04 \x01(\x01R\x05value\x12\x16\n" +
+	"\x06reason\x18\x05 \x01(\tR\x06reason\x12E\n" +
+	"\x1ccricondentherm_temperature_k\x18\x06 \x01(\x01H\x00R\x1acricondenthermTemperatureK\x88\x01\x01\x12A\n" +
+	"\x1acricondentherm_pressure_pa\x18\a \x01(\x01H\x01R\x18cricondenthermPressurePa\x88\x01\x01\x12A\n" +
+	"\x1acricondenbar_temperature_k\x18\b \x01(\x01H\x02R\x18cricondenbarTemperatureK\x88\x01\x01\x12=\n" +
+	"\x18cricondenbar_pressure_pa\x18\t \x01(\x01H\x03R\x16cricondenbarPressurePa\x88\x01\x01B\x1f\n" +
+	"\x1d_cricondentherm_temperature_kB\x1d\n" +
+	"\x1b_cricondentherm_pressure_paB\x1d\n" +
+	"\x1b_cricondenbar_temperature_kB\x1b\n" +
+	"\x19_cricondenbar_pressure_paB-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3"
 
 var (
 	file_fugad_v1_errors_proto_rawDescOnce sync.Once
@@ -166,22 +327,27 @@ func file_fugad_v1_errors_proto_rawDescGZIP() []byte {
 	return file_fugad_v1_errors_proto_rawDescData
 }
 
-var file_fugad_v1_errors_proto_msgTypes = make([]protoimpl.MessageInfo, 1)
+var file_fugad_v1_errors_proto_msgTypes = make([]protoimpl.MessageInfo, 2)
 var file_fugad_v1_errors_proto_goTypes = []any{
 	(*NotConvergedDetail)(nil),      // 0: fugad.v1.NotConvergedDetail
-	(*SolverReport)(nil),            // 1: fugad.v1.SolverReport
-	(*FlashResult)(nil),             // 2: fugad.v1.FlashResult
-	(*SaturationPointResponse)(nil), // 3: fugad.v1.SaturationPointResponse
+	(*NoSaturationDetail)(nil),      // 1: fugad.v1.NoSaturationDetail
+	(*SolverReport)(nil),            // 2: fugad.v1.SolverReport
+	(*FlashResult)(nil),             // 3: fugad.v1.FlashResult
+	(*SaturationPointResponse)(nil), // 4: fugad.v1.SaturationPointResponse
+	(*PhaseEnvelopeResponse)(nil),   // 5: fugad.v1.PhaseEnvelopeResponse
+	(SaturationType)(0),             // 6: fugad.v1.SaturationType
 }
 var file_fugad_v1_errors_proto_depIdxs = []int32{
-	1, // 0: fugad.v1.NotConvergedDetail.report:type_name -> fugad.v1.SolverReport
-	2, // 1: fugad.v1.NotConvergedDetail.flash:type_name -> fugad.v1.FlashResult
-	3, // 2: fugad.v1.NotConvergedDetail.saturation:type_name -> fugad.v1.SaturationPointResponse
-	3, // [3:3] is the sub-list for method output_type
-	3, // [3:3] is the sub-list for method input_type
-	3, // [3:3] is the sub-list for extension type_name
-	3, // [3:3] is the sub-list for extension extendee
-	0, // [0:3] is the sub-list for field type_name
+	2, // 0: fugad.v1.NotConvergedDetail.report:type_name -> fugad.v1.SolverReport
+	3, // 1: fugad.v1.NotConvergedDetail.flash:type_name -> fugad.v1.FlashResult
+	4, // 2: fugad.v1.NotConvergedDetail.saturation:type_name -> fugad.v1.SaturationPointResponse
+	5, // 3: fugad.v1.NotConvergedDetail.envelope:type_name -> fugad.v1.PhaseEnvelopeResponse
+	6, // 4: fugad.v1.NoSaturationDetail.type:type_name -> fugad.v1.SaturationType
+	5, // [5:5] is the sub-list for method output_type
+	5, // [5:5] is the sub-list for method input_type
+	5, // [5:5] is the sub-list for extension type_name
+	5, // [5:5] is the sub-list for extension extendee
+	0, // [0:5] is the sub-list for field type_name
 }
 
 func init() { file_fugad_v1_errors_proto_init() }
@@ -189,20 +355,23 @@ func file_fugad_v1_errors_proto_init() {
 	if File_fugad_v1_errors_proto != nil {
 		return
 	}
+	file_fugad_v1_envelope_proto_init()
 	file_fugad_v1_flash_proto_init()
 	file_fugad_v1_saturation_proto_init()
 	file_fugad_v1_solver_proto_init()
 	file_fugad_v1_errors_proto_msgTypes[0].OneofWrappers = []any{
 		(*NotConvergedDetail_Flash)(nil),
 		(*NotConvergedDetail_Saturation)(nil),
+		(*NotConvergedDetail_Envelope)(nil),
 	}
+	file_fugad_v1_errors_proto_msgTypes[1].OneofWrappers = []any{}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fugad_v1_errors_proto_rawDesc), len(file_fugad_v1_errors_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   1,
+			NumMessages:   2,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

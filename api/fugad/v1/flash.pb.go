@@ -79,6 +79,18 @@ func (x *TemperaturePressure) GetPressurePa() float64 {
 
 // PressureEnthalpy specifies a state by pressure and molar enthalpy
 // (an isenthalpic flash, e.g. across a valve).
+//
+// The state-function specifications (ph, ps, tv, uv) are solved by nested
+// iteration on T–P flashes (Michelsen 1987, Fluid Phase Equilib. 33:13–27;
+// Michelsen 1999, Fluid Phase Equilib. 158–160:617–626), with up to three
+// phases and stability analysis at the solution. The search spans
+// 20–3000 K and 1 Pa–10 GPa; a specification no state in it reaches is
+// answered INVALID_ARGUMENT, reason SPECIFICATION_UNREACHABLE, naming the
+// specified field. The report adds a STATE_FUNCTION stage (outer
+// iterations) to the inner flashes' stages (summed), and its
+// final_residual is the larger of the fugacity residual and the
+// specification residual (|H − H_spec|/RT, |S − S_spec|/R,
+// |ln V − ln V_spec|).
 type PressureEnthalpy struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Pressure, Pa. Positive and finite.
@@ -304,6 +316,19 @@ func (x *InternalEnergyVolume) GetMolarVolumeM3PerMol() float64 {
 
 // PressureVapourFraction specifies a state by pressure and the molar
 // vapour fraction; 0 gives the bubble-point temperature, 1 the dew point.
+//
+// The result is the vapour–liquid state on that line of constant vapour
+// fraction (Michelsen 1980, Fluid Phase Equilib. 4:1–10): the solved
+// temperature, and two phases built from the solved point's compositions,
+// the vapour (label VAPOUR, amount vapour_fraction) and the liquid (label
+// LIQUID, amount 1 − vapour_fraction), each with its properties on its own
+// root of the equation of state. At 0 or 1 the incipient phase is included
+// with amount 0. The result has no stability analysis: a third phase (a
+// second liquid, water) is not sought; a T–P flash at the returned
+// temperature and pressure tells whether one appears. Where several
+// temperatures have the vapour fraction (the retrograde region), the
+// solver's direct solve decides, steered by warm_start.temperature_k. No
+// such state: FAILED_PRECONDITION, reason NO_SATURATION_POINT.
 type PressureVapourFraction struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Pressure, Pa. Positive and finite.
@@ -359,7 +384,9 @@ func (x *PressureVapourFraction) GetVapourFraction() float64 {
 }
 
 // TemperatureVapourFraction specifies a state by temperature and the molar
-// vapour fraction; 0 gives the bubble-point pressure, 1 the dew point.
+// vapour fraction; 0 gives the bubble-point pressure, 1 the dew point. The
+// result is built as for PressureVapourFraction, with the pressure solved
+// for (steered by warm_start.pressure_pa where two exist).
 type TemperatureVapourFraction struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Temperature, K. Positive and finite.
@@ -712,7 +739,9 @@ type FlashResult struct {
 	// multiphase result, in component order; empty for a single phase.
 	KValues []float64 `protobuf:"fixed64,6,rep,packed,name=k_values,json=kValues,proto3" json:"k_values,omitempty"`
 	// Initial estimate for the next request on a nearby state: copy it into
-	// FlashState.warm_start.
+	// FlashState.warm_start. For the specifications that solve for the
+	// temperature or the pressure (all but tp) it carries both, and the
+	// vapour-fraction specifications add the K-values.
 	WarmStart *WarmStart `protobuf:"bytes,7,opt,name=warm_start,json=warmStart,proto3" json:"warm_start,omitempty"`
 	// What the solver did.
 	Report        *SolverReport `protobuf:"bytes,8,opt,name=report,proto3" json:"report,omitempty"`

@@ -74,6 +74,65 @@ func (SaturationType) EnumDescriptor() ([]byte, []int) {
 	return file_fugad_v1_saturation_proto_rawDescGZIP(), []int{0}
 }
 
+// SaturationBranch chooses among several saturation points of the same
+// kind at one specification: the lower and the upper dew pressure of a gas
+// condensate at a temperature in its retrograde range (between the
+// critical temperature and the cricondentherm), or the two dew
+// temperatures between the critical pressure and the cricondenbar.
+type SaturationBranch int32
+
+const (
+	// The solver's choice: the point a direct solve from Wilson K-values
+	// finds (usually the lower one), else the lowest point of the traced
+	// envelope.
+	SaturationBranch_SATURATION_BRANCH_UNSPECIFIED SaturationBranch = 0
+	// The point of lowest unknown (pressure or temperature).
+	SaturationBranch_SATURATION_BRANCH_LOWER SaturationBranch = 1
+	// The point of highest unknown.
+	SaturationBranch_SATURATION_BRANCH_UPPER SaturationBranch = 2
+)
+
+// Enum value maps for SaturationBranch.
+var (
+	SaturationBranch_name = map[int32]string{
+		0: "SATURATION_BRANCH_UNSPECIFIED",
+		1: "SATURATION_BRANCH_LOWER",
+		2: "SATURATION_BRANCH_UPPER",
+	}
+	SaturationBranch_value = map[string]int32{
+		"SATURATION_BRANCH_UNSPECIFIED": 0,
+		"SATURATION_BRANCH_LOWER":       1,
+		"SATURATION_BRANCH_UPPER":       2,
+	}
+)
+
+func (x SaturationBranch) Enum() *SaturationBranch {
+	p := new(SaturationBranch)
+	*p = x
+	return p
+}
+
+func (x SaturationBranch) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (SaturationBranch) Descriptor() protoreflect.EnumDescriptor {
+	return file_fugad_v1_saturation_proto_enumTypes[1].Descriptor()
+}
+
+func (SaturationBranch) Type() protoreflect.EnumType {
+	return &file_fugad_v1_saturation_proto_enumTypes[1]
+}
+
+func (x SaturationBranch) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use SaturationBranch.Descriptor instead.
+func (SaturationBranch) EnumDescriptor() ([]byte, []int) {
+	return file_fugad_v1_saturation_proto_rawDescGZIP(), []int{1}
+}
+
 // SaturationPointRequest asks for a bubble or dew point of a feed: the
 // pressure at a given temperature or the temperature at a given pressure.
 type SaturationPointRequest struct {
@@ -92,13 +151,22 @@ type SaturationPointRequest struct {
 	//	*SaturationPointRequest_TemperatureK
 	//	*SaturationPointRequest_PressurePa
 	Specified isSaturationPointRequest_Specified `protobuf_oneof:"specified"`
-	// Optional start: the unknown's estimate (temperature_k or pressure_pa)
-	// and K-values, typically copied from a previous response.
+	// Optional start: the unknown's estimate (warm_start.pressure_pa when
+	// temperature_k is specified, warm_start.temperature_k when pressure_pa
+	// is) and K-values y_i/x_i, typically copied from a previous response.
+	// With the unknown's estimate set the solve runs directly from it and
+	// returns the point it converges to, whatever branch says: that is how
+	// a caller follows the upper dew-pressure branch from step to step.
 	WarmStart *WarmStart `protobuf:"bytes,6,opt,name=warm_start,json=warmStart,proto3" json:"warm_start,omitempty"`
 	// Solver options; defaults when absent.
 	Options *SolverOptions `protobuf:"bytes,7,opt,name=options,proto3" json:"options,omitempty"`
 	// Skip the result cache.
-	BypassCache   bool `protobuf:"varint,8,opt,name=bypass_cache,json=bypassCache,proto3" json:"bypass_cache,omitempty"`
+	BypassCache bool `protobuf:"varint,8,opt,name=bypass_cache,json=bypassCache,proto3" json:"bypass_cache,omitempty"`
+	// Which point when there are several (see SaturationBranch). LOWER and
+	// UPPER trace the phase envelope to find every point at the
+	// specification (about a millisecond for ten components) unless the
+	// warm start carries the unknown's estimate.
+	Branch        SaturationBranch `protobuf:"varint,9,opt,name=branch,proto3,enum=fugad.v1.SaturationBranch" json:"branch,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -200,6 +268,13 @@ func (x *SaturationPointRequest) GetBypassCache() bool {
 	return false
 }
 
+func (x *SaturationPointRequest) GetBranch() SaturationBranch {
+	if x != nil {
+		return x.Branch
+	}
+	return SaturationBranch_SATURATION_BRANCH_UNSPECIFIED
+}
+
 type isSaturationPointRequest_Specified interface {
 	isSaturationPointRequest_Specified()
 }
@@ -231,12 +306,22 @@ type SaturationPointResponse struct {
 	IncipientMoleFractions []float64 `protobuf:"fixed64,4,rep,packed,name=incipient_mole_fractions,json=incipientMoleFractions,proto3" json:"incipient_mole_fractions,omitempty"`
 	// K-values y_i/x_i between vapour and liquid, in component order.
 	KValues []float64 `protobuf:"fixed64,5,rep,packed,name=k_values,json=kValues,proto3" json:"k_values,omitempty"`
-	// Initial estimate for a nearby request.
+	// Initial estimate for a nearby request: the solved unknown
+	// (temperature_k or pressure_pa) and the K-values.
 	WarmStart *WarmStart `protobuf:"bytes,6,opt,name=warm_start,json=warmStart,proto3" json:"warm_start,omitempty"`
-	// What the solver did.
-	Report        *SolverReport `protobuf:"bytes,7,opt,name=report,proto3" json:"report,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// What the solver did: SUCCESSIVE_SUBSTITUTION and SATURATION (Newton)
+	// iterations, and ENVELOPE with the number of envelope points traced
+	// when the point was found from the envelope (branch LOWER or UPPER, or
+	// a failed direct solve).
+	Report *SolverReport `protobuf:"bytes,7,opt,name=report,proto3" json:"report,omitempty"`
+	// Molar volume of the liquid (the feed at a bubble point, the incipient
+	// phase at a dew point), m³/mol.
+	LiquidMolarVolumeM3PerMol float64 `protobuf:"fixed64,8,opt,name=liquid_molar_volume_m3_per_mol,json=liquidMolarVolumeM3PerMol,proto3" json:"liquid_molar_volume_m3_per_mol,omitempty"`
+	// Molar volume of the vapour (the incipient phase at a bubble point, the
+	// feed at a dew point), m³/mol.
+	VapourMolarVolumeM3PerMol float64 `protobuf:"fixed64,9,opt,name=vapour_molar_volume_m3_per_mol,json=vapourMolarVolumeM3PerMol,proto3" json:"vapour_molar_volume_m3_per_mol,omitempty"`
+	unknownFields             protoimpl.UnknownFields
+	sizeCache                 protoimpl.SizeCache
 }
 
 func (x *SaturationPointResponse) Reset() {
@@ -318,11 +403,25 @@ func (x *SaturationPointResponse) GetReport() *SolverReport {
 	return nil
 }
 
+func (x *SaturationPointResponse) GetLiquidMolarVolumeM3PerMol() float64 {
+	if x != nil {
+		return x.LiquidMolarVolumeM3PerMol
+	}
+	return 0
+}
+
+func (x *SaturationPointResponse) GetVapourMolarVolumeM3PerMol() float64 {
+	if x != nil {
+		return x.VapourMolarVolumeM3PerMol
+	}
+	return 0
+}
+
 var File_fugad_v1_saturation_proto protoreflect.FileDescriptor
 
 const file_fugad_v1_saturation_proto_rawDesc = "" +
 	"\n" +
-	"\x19fugad/v1/saturation.proto\x12\bfugad.v1\x1a\x14fugad/v1/fluid.proto\x1a\x15fugad/v1/solver.proto\"\xf5\x02\n" +
+	"\x19fugad/v1/saturation.proto\x12\bfugad.v1\x1a\x14fugad/v1/fluid.proto\x1a\x15fugad/v1/solver.proto\"\xa9\x03\n" +
 	"\x16SaturationPointRequest\x12%\n" +
 	"\x05fluid\x18\x01 \x01(\v2\x0f.fugad.v1.FluidR\x05fluid\x12%\n" +
 	"\x0emole_fractions\x18\x02 \x03(\x01R\rmoleFractions\x12,\n" +
@@ -333,8 +432,9 @@ const file_fugad_v1_saturation_proto_rawDesc = "" +
 	"\n" +
 	"warm_start\x18\x06 \x01(\v2\x13.fugad.v1.WarmStartR\twarmStart\x121\n" +
 	"\aoptions\x18\a \x01(\v2\x17.fugad.v1.SolverOptionsR\aoptions\x12!\n" +
-	"\fbypass_cache\x18\b \x01(\bR\vbypassCacheB\v\n" +
-	"\tspecified\"\xd7\x02\n" +
+	"\fbypass_cache\x18\b \x01(\bR\vbypassCache\x122\n" +
+	"\x06branch\x18\t \x01(\x0e2\x1a.fugad.v1.SaturationBranchR\x06branchB\v\n" +
+	"\tspecified\"\xdd\x03\n" +
 	"\x17SaturationPointResponse\x12#\n" +
 	"\rtemperature_k\x18\x01 \x01(\x01R\ftemperatureK\x12\x1f\n" +
 	"\vpressure_pa\x18\x02 \x01(\x01R\n" +
@@ -344,11 +444,17 @@ const file_fugad_v1_saturation_proto_rawDesc = "" +
 	"\bk_values\x18\x05 \x03(\x01R\akValues\x122\n" +
 	"\n" +
 	"warm_start\x18\x06 \x01(\v2\x13.fugad.v1.WarmStartR\twarmStart\x12.\n" +
-	"\x06report\x18\a \x01(\v2\x16.fugad.v1.SolverReportR\x06report*f\n" +
+	"\x06report\x18\a \x01(\v2\x16.fugad.v1.SolverReportR\x06report\x12A\n" +
+	"\x1eliquid_molar_volume_m3_per_mol\x18\b \x01(\x01R\x19liquidMolarVolumeM3PerMol\x12A\n" +
+	"\x1evapour_molar_volume_m3_per_mol\x18\t \x01(\x01R\x19vapourMolarVolumeM3PerMol*f\n" +
 	"\x0eSaturationType\x12\x1f\n" +
 	"\x1bSATURATION_TYPE_UNSPECIFIED\x10\x00\x12\x1a\n" +
 	"\x16SATURATION_TYPE_BUBBLE\x10\x01\x12\x17\n" +
-	"\x13SATURATION_TYPE_DEW\x10\x02B-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3"
+	"\x13SATURATION_TYPE_DEW\x10\x02*o\n" +
+	"\x10SaturationBranch\x12!\n" +
+	"\x1dSATURATION_BRANCH_UNSPECIFIED\x10\x00\x12\x1b\n" +
+	"\x17SATURATION_BRANCH_LOWER\x10\x01\x12\x1b\n" +
+	"\x17SATURATION_BRANCH_UPPER\x10\x02B-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3"
 
 var (
 	file_fugad_v1_saturation_proto_rawDescOnce sync.Once
@@ -362,31 +468,33 @@ func file_fugad_v1_saturation_proto_rawDescGZIP() []byte {
 	return file_fugad_v1_saturation_proto_rawDescData
 }
 
-var file_fugad_v1_saturation_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
+var file_fugad_v1_saturation_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
 var file_fugad_v1_saturation_proto_msgTypes = make([]protoimpl.MessageInfo, 2)
 var file_fugad_v1_saturation_proto_goTypes = []any{
 	(SaturationType)(0),             // 0: fugad.v1.SaturationType
-	(*SaturationPointRequest)(nil),  // 1: fugad.v1.SaturationPointRequest
-	(*SaturationPointResponse)(nil), // 2: fugad.v1.SaturationPointResponse
-	(*Fluid)(nil),                   // 3: fugad.v1.Fluid
-	(*WarmStart)(nil),               // 4: fugad.v1.WarmStart
-	(*SolverOptions)(nil),           // 5: fugad.v1.SolverOptions
-	(PhaseLabel)(0),                 // 6: fugad.v1.PhaseLabel
-	(*SolverReport)(nil),            // 7: fugad.v1.SolverReport
+	(SaturationBranch)(0),           // 1: fugad.v1.SaturationBranch
+	(*SaturationPointRequest)(nil),  // 2: fugad.v1.SaturationPointRequest
+	(*SaturationPointResponse)(nil), // 3: fugad.v1.SaturationPointResponse
+	(*Fluid)(nil),                   // 4: fugad.v1.Fluid
+	(*WarmStart)(nil),               // 5: fugad.v1.WarmStart
+	(*SolverOptions)(nil),           // 6: fugad.v1.SolverOptions
+	(PhaseLabel)(0),                 // 7: fugad.v1.PhaseLabel
+	(*SolverReport)(nil),            // 8: fugad.v1.SolverReport
 }
 var file_fugad_v1_saturation_proto_depIdxs = []int32{
-	3, // 0: fugad.v1.SaturationPointRequest.fluid:type_name -> fugad.v1.Fluid
+	4, // 0: fugad.v1.SaturationPointRequest.fluid:type_name -> fugad.v1.Fluid
 	0, // 1: fugad.v1.SaturationPointRequest.type:type_name -> fugad.v1.SaturationType
-	4, // 2: fugad.v1.SaturationPointRequest.warm_start:type_name -> fugad.v1.WarmStart
-	5, // 3: fugad.v1.SaturationPointRequest.options:type_name -> fugad.v1.SolverOptions
-	6, // 4: fugad.v1.SaturationPointResponse.incipient_phase:type_name -> fugad.v1.PhaseLabel
-	4, // 5: fugad.v1.SaturationPointResponse.warm_start:type_name -> fugad.v1.WarmStart
-	7, // 6: fugad.v1.SaturationPointResponse.report:type_name -> fugad.v1.SolverReport
-	7, // [7:7] is the sub-list for method output_type
-	7, // [7:7] is the sub-list for method input_type
-	7, // [7:7] is the sub-list for extension type_name
-	7, // [7:7] is the sub-list for extension extendee
-	0, // [0:7] is the sub-list for field type_name
+	5, // 2: fugad.v1.SaturationPointRequest.warm_start:type_name -> fugad.v1.WarmStart
+	6, // 3: fugad.v1.SaturationPointRequest.options:type_name -> fugad.v1.SolverOptions
+	1, // 4: fugad.v1.SaturationPointRequest.branch:type_name -> fugad.v1.SaturationBranch
+	7, // 5: fugad.v1.SaturationPointResponse.incipient_phase:type_name -> fugad.v1.PhaseLabel
+	5, // 6: fugad.v1.SaturationPointResponse.warm_start:type_name -> fugad.v1.WarmStart
+	8, // 7: fugad.v1.SaturationPointResponse.report:type_name -> fugad.v1.SolverReport
+	8, // [8:8] is the sub-list for method output_type
+	8, // [8:8] is the sub-list for method input_type
+	8, // [8:8] is the sub-list for extension type_name
+	8, // [8:8] is the sub-list for extension extendee
+	0, // [0:8] is the sub-list for field type_name
 }
 
 func init() { file_fugad_v1_saturation_proto_init() }
@@ -405,7 +513,7 @@ func file_fugad_v1_saturation_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fugad_v1_saturation_proto_rawDesc), len(file_fugad_v1_saturation_proto_rawDesc)),
-			NumEnums:      1,
+			NumEnums:      2,
 			NumMessages:   2,
 			NumExtensions: 0,
 			NumServices:   0,

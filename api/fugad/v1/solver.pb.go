@@ -236,8 +236,11 @@ type SolverOptions struct {
 	// converged answer by accident.
 	Tolerance float64 `protobuf:"fixed64,1,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	// Cap on the iterations of each solver stage. Zero selects the solver's
-	// default (200 for the T–P flash); otherwise within [10, 10000], since a
-	// smaller cap cannot converge even an easy state.
+	// default (200 for the T–P flash, 100 outer iterations for the
+	// state-function flashes, 40 Newton iterations for saturation and
+	// envelope points); otherwise within [10, 10000], since a smaller cap
+	// cannot converge even an easy state. The outer iteration of a
+	// state-function flash is capped at 1000 whatever the value.
 	MaxIterations uint32 `protobuf:"varint,2,opt,name=max_iterations,json=maxIterations,proto3" json:"max_iterations,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache

@@ -15,7 +15,7 @@ from fugad.v1 import fluid_pb2 as fugad_dot_v1_dot_fluid__pb2
 from fugad.v1 import solver_pb2 as fugad_dot_v1_dot_solver__pb2
 
 
-DESCRIPTOR = _descriptor_pool.Default().AddSerializedFile(b'\n\x17\x66ugad/v1/envelope.proto\x12\x08\x66ugad.v1\x1a\x14\x66ugad/v1/fluid.proto\x1a\x15\x66ugad/v1/solver.proto\"\xda\x01\n\x14PhaseEnvelopeRequest\x12\x1e\n\x05\x66luid\x18\x01 \x01(\x0b\x32\x0f.fugad.v1.Fluid\x12\x16\n\x0emole_fractions\x18\x02 \x03(\x01\x12\x19\n\x11start_pressure_pa\x18\x03 \x01(\x01\x12\x1b\n\x13maximum_pressure_pa\x18\x04 \x01(\x01\x12\x12\n\nmax_points\x18\x05 \x01(\r\x12(\n\x07options\x18\x06 \x01(\x0b\x32\x17.fugad.v1.SolverOptions\x12\x14\n\x0c\x62ypass_cache\x18\x07 \x01(\x08\"w\n\rEnvelopePoint\x12\x15\n\rtemperature_k\x18\x01 \x01(\x01\x12\x13\n\x0bpressure_pa\x18\x02 \x01(\x01\x12(\n\x06\x62ranch\x18\x03 \x01(\x0e\x32\x18.fugad.v1.EnvelopeBranch\x12\x10\n\x08k_values\x18\x04 \x03(\x01\"\\\n\rCriticalPoint\x12\x15\n\rtemperature_k\x18\x01 \x01(\x01\x12\x13\n\x0bpressure_pa\x18\x02 \x01(\x01\x12\x1f\n\x17molar_volume_m3_per_mol\x18\x03 \x01(\x01\"\x8c\x02\n\x15PhaseEnvelopeResponse\x12\'\n\x06points\x18\x01 \x03(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12\x30\n\x0f\x63ritical_points\x18\x02 \x03(\x0b\x32\x17.fugad.v1.CriticalPoint\x12-\n\x0c\x63ricondenbar\x18\x03 \x01(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12/\n\x0e\x63ricondentherm\x18\x04 \x01(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12\x10\n\x08\x63omplete\x18\x05 \x01(\x08\x12&\n\x06report\x18\x06 \x01(\x0b\x32\x16.fugad.v1.SolverReport*f\n\x0e\x45nvelopeBranch\x12\x1f\n\x1b\x45NVELOPE_BRANCH_UNSPECIFIED\x10\x00\x12\x17\n\x13\x45NVELOPE_BRANCH_DEW\x10\x01\x12\x1a\n\x16\x45NVELOPE_BRANCH_BUBBLE\x10\x02\x42-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3')
+DESCRIPTOR = _descriptor_pool.Default().AddSerializedFile(b'\n\x17\x66ugad/v1/envelope.proto\x12\x08\x66ugad.v1\x1a\x14\x66ugad/v1/fluid.proto\x1a\x15\x66ugad/v1/solver.proto\"\xfc\x01\n\x14PhaseEnvelopeRequest\x12\x1e\n\x05\x66luid\x18\x01 \x01(\x0b\x32\x0f.fugad.v1.Fluid\x12\x16\n\x0emole_fractions\x18\x02 \x03(\x01\x12\x19\n\x11start_pressure_pa\x18\x03 \x01(\x01\x12\x1b\n\x13maximum_pressure_pa\x18\x04 \x01(\x01\x12\x12\n\nmax_points\x18\x05 \x01(\r\x12(\n\x07options\x18\x06 \x01(\x0b\x32\x17.fugad.v1.SolverOptions\x12\x14\n\x0c\x62ypass_cache\x18\x07 \x01(\x08\x12 \n\x18quality_vapour_fractions\x18\x08 \x03(\x01\"\xf7\x01\n\rEnvelopePoint\x12\x15\n\rtemperature_k\x18\x01 \x01(\x01\x12\x13\n\x0bpressure_pa\x18\x02 \x01(\x01\x12(\n\x06\x62ranch\x18\x03 \x01(\x0e\x32\x18.fugad.v1.EnvelopeBranch\x12\x10\n\x08k_values\x18\x04 \x03(\x01\x12\x12\n\niterations\x18\x05 \x01(\r\x12\x12\n\nmetastable\x18\x06 \x01(\x08\x12/\n\"third_phase_tangent_plane_distance\x18\x07 \x01(\x01H\x00\x88\x01\x01\x42%\n#_third_phase_tangent_plane_distance\"q\n\rCriticalPoint\x12\x15\n\rtemperature_k\x18\x01 \x01(\x01\x12\x13\n\x0bpressure_pa\x18\x02 \x01(\x01\x12\x1f\n\x17molar_volume_m3_per_mol\x18\x03 \x01(\x01\x12\x13\n\x0bpoint_index\x18\x04 \x01(\r\"\xcd\x03\n\rEnvelopeTrace\x12\x0e\n\x06points\x18\x01 \x01(\r\x12\x19\n\x11newton_iterations\x18\x02 \x01(\x04\x12 \n\x18max_iterations_per_point\x18\x03 \x01(\r\x12\x11\n\tstep_cuts\x18\x04 \x01(\r\x12\x10\n\x08\x66\x61ilures\x18\x05 \x01(\r\x12$\n\x04stop\x18\x06 \x01(\x0e\x32\x16.fugad.v1.EnvelopeStop\x12\x13\n\x0bstop_detail\x18\x07 \x01(\t\x12\x1a\n\x12last_temperature_k\x18\x08 \x01(\x01\x12\x18\n\x10last_pressure_pa\x18\t \x01(\x01\x12\x19\n\x11metastable_points\x18\n \x01(\r\x12(\n metastable_minimum_temperature_k\x18\x0b \x01(\x01\x12(\n metastable_maximum_temperature_k\x18\x0c \x01(\x01\x12&\n\x1emetastable_minimum_pressure_pa\x18\r \x01(\x01\x12&\n\x1emetastable_maximum_pressure_pa\x18\x0e \x01(\x01\x12\x1a\n\x12ln_phi_evaluations\x18\x0f \x01(\x04\"w\n\x0bQualityLine\x12\x17\n\x0fvapour_fraction\x18\x01 \x01(\x01\x12\'\n\x06points\x18\x02 \x03(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12&\n\x05trace\x18\x03 \x01(\x0b\x32\x17.fugad.v1.EnvelopeTrace\"\xe2\x02\n\x15PhaseEnvelopeResponse\x12\'\n\x06points\x18\x01 \x03(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12\x30\n\x0f\x63ritical_points\x18\x02 \x03(\x0b\x32\x17.fugad.v1.CriticalPoint\x12-\n\x0c\x63ricondenbar\x18\x03 \x01(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12/\n\x0e\x63ricondentherm\x18\x04 \x01(\x0b\x32\x17.fugad.v1.EnvelopePoint\x12\x10\n\x08\x63omplete\x18\x05 \x01(\x08\x12&\n\x06report\x18\x06 \x01(\x0b\x32\x16.fugad.v1.SolverReport\x12&\n\x05trace\x18\x07 \x01(\x0b\x32\x17.fugad.v1.EnvelopeTrace\x12,\n\rquality_lines\x18\x08 \x03(\x0b\x32\x15.fugad.v1.QualityLine*\xc0\x01\n\x0e\x45nvelopeBranch\x12\x1f\n\x1b\x45NVELOPE_BRANCH_UNSPECIFIED\x10\x00\x12\x17\n\x13\x45NVELOPE_BRANCH_DEW\x10\x01\x12\x1a\n\x16\x45NVELOPE_BRANCH_BUBBLE\x10\x02\x12\x1c\n\x18\x45NVELOPE_BRANCH_CRITICAL\x10\x03\x12\x1d\n\x19\x45NVELOPE_BRANCH_SATURATED\x10\x04\x12\x1b\n\x17\x45NVELOPE_BRANCH_QUALITY\x10\x05*\x9a\x02\n\x0c\x45nvelopeStop\x12\x1d\n\x19\x45NVELOPE_STOP_UNSPECIFIED\x10\x00\x12\x1e\n\x1a\x45NVELOPE_STOP_LOW_PRESSURE\x10\x01\x12 \n\x1c\x45NVELOPE_STOP_CRITICAL_POINT\x10\x02\x12\x1f\n\x1b\x45NVELOPE_STOP_PURE_CRITICAL\x10\x03\x12\"\n\x1e\x45NVELOPE_STOP_MAXIMUM_PRESSURE\x10\x04\x12%\n!ENVELOPE_STOP_MINIMUM_TEMPERATURE\x10\x05\x12 \n\x1c\x45NVELOPE_STOP_MAXIMUM_POINTS\x10\x06\x12\x1b\n\x17\x45NVELOPE_STOP_STEP_CUTS\x10\x07\x42-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3')
 
 _builder.BuildMessageAndEnumDescriptors(DESCRIPTOR, globals())
 _builder.BuildTopDescriptorsAndMessages(DESCRIPTOR, 'fugad.v1.envelope_pb2', globals())
@@ -23,14 +23,20 @@ if _descriptor._USE_C_DESCRIPTORS == False:
 
   DESCRIPTOR._options = None
   DESCRIPTOR._serialized_options = b'Z+github.com/fugad/fugad/api/fugad/v1;fugadv1'
-  _ENVELOPEBRANCH._serialized_start=789
-  _ENVELOPEBRANCH._serialized_end=891
+  _ENVELOPEBRANCH._serialized_start=1645
+  _ENVELOPEBRANCH._serialized_end=1837
+  _ENVELOPESTOP._serialized_start=1840
+  _ENVELOPESTOP._serialized_end=2122
   _PHASEENVELOPEREQUEST._serialized_start=83
-  _PHASEENVELOPEREQUEST._serialized_end=301
-  _ENVELOPEPOINT._serialized_start=303
-  _ENVELOPEPOINT._serialized_end=422
-  _CRITICALPOINT._serialized_start=424
-  _CRITICALPOINT._serialized_end=516
-  _PHASEENVELOPERESPONSE._serialized_start=519
-  _PHASEENVELOPERESPONSE._serialized_end=787
+  _PHASEENVELOPEREQUEST._serialized_end=335
+  _ENVELOPEPOINT._serialized_start=338
+  _ENVELOPEPOINT._serialized_end=585
+  _CRITICALPOINT._serialized_start=587
+  _CRITICALPOINT._serialized_end=700
+  _ENVELOPETRACE._serialized_start=703
+  _ENVELOPETRACE._serialized_end=1164
+  _QUALITYLINE._serialized_start=1166
+  _QUALITYLINE._serialized_end=1285
+  _PHASEENVELOPERESPONSE._serialized_start=1288
+  _PHASEENVELOPERESPONSE._serialized_end=1642
 # @@protoc_insertion_point(module_scope)

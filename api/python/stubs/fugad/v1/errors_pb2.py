@@ -11,12 +11,13 @@ from google.protobuf import symbol_database as _symbol_database
 _sym_db = _symbol_database.Default()
 
 
+from fugad.v1 import envelope_pb2 as fugad_dot_v1_dot_envelope__pb2
 from fugad.v1 import flash_pb2 as fugad_dot_v1_dot_flash__pb2
 from fugad.v1 import saturation_pb2 as fugad_dot_v1_dot_saturation__pb2
 from fugad.v1 import solver_pb2 as fugad_dot_v1_dot_solver__pb2
 
 
-DESCRIPTOR = _descriptor_pool.Default().AddSerializedFile(b'\n\x15\x66ugad/v1/errors.proto\x12\x08\x66ugad.v1\x1a\x14\x66ugad/v1/flash.proto\x1a\x19\x66ugad/v1/saturation.proto\x1a\x15\x66ugad/v1/solver.proto\"\xd3\x01\n\x12NotConvergedDetail\x12\x10\n\x08residual\x18\x01 \x01(\x01\x12\x11\n\ttolerance\x18\x02 \x01(\x01\x12&\n\x06report\x18\x03 \x01(\x0b\x32\x16.fugad.v1.SolverReport\x12&\n\x05\x66lash\x18\x04 \x01(\x0b\x32\x15.fugad.v1.FlashResultH\x00\x12\x37\n\nsaturation\x18\x05 \x01(\x0b\x32!.fugad.v1.SaturationPointResponseH\x00\x42\x0f\n\rbest_estimateB-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3')
+DESCRIPTOR = _descriptor_pool.Default().AddSerializedFile(b'\n\x15\x66ugad/v1/errors.proto\x12\x08\x66ugad.v1\x1a\x17\x66ugad/v1/envelope.proto\x1a\x14\x66ugad/v1/flash.proto\x1a\x19\x66ugad/v1/saturation.proto\x1a\x15\x66ugad/v1/solver.proto\"\x88\x02\n\x12NotConvergedDetail\x12\x10\n\x08residual\x18\x01 \x01(\x01\x12\x11\n\ttolerance\x18\x02 \x01(\x01\x12&\n\x06report\x18\x03 \x01(\x0b\x32\x16.fugad.v1.SolverReport\x12&\n\x05\x66lash\x18\x04 \x01(\x0b\x32\x15.fugad.v1.FlashResultH\x00\x12\x37\n\nsaturation\x18\x05 \x01(\x0b\x32!.fugad.v1.SaturationPointResponseH\x00\x12\x33\n\x08\x65nvelope\x18\x06 \x01(\x0b\x32\x1f.fugad.v1.PhaseEnvelopeResponseH\x00\x42\x0f\n\rbest_estimate\"\xa3\x03\n\x12NoSaturationDetail\x12&\n\x04type\x18\x01 \x01(\x0e\x32\x18.fugad.v1.SaturationType\x12\x17\n\x0fvapour_fraction\x18\x02 \x01(\x01\x12\r\n\x05\x66ield\x18\x03 \x01(\t\x12\r\n\x05value\x18\x04 \x01(\x01\x12\x0e\n\x06reason\x18\x05 \x01(\t\x12)\n\x1c\x63ricondentherm_temperature_k\x18\x06 \x01(\x01H\x00\x88\x01\x01\x12\'\n\x1a\x63ricondentherm_pressure_pa\x18\x07 \x01(\x01H\x01\x88\x01\x01\x12\'\n\x1a\x63ricondenbar_temperature_k\x18\x08 \x01(\x01H\x02\x88\x01\x01\x12%\n\x18\x63ricondenbar_pressure_pa\x18\t \x01(\x01H\x03\x88\x01\x01\x42\x1f\n\x1d_cricondentherm_temperature_kB\x1d\n\x1b_cricondentherm_pressure_paB\x1d\n\x1b_cricondenbar_temperature_kB\x1b\n\x19_cricondenbar_pressure_paB-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3')
 
 _builder.BuildMessageAndEnumDescriptors(DESCRIPTOR, globals())
 _builder.BuildTopDescriptorsAndMessages(DESCRIPTOR, 'fugad.v1.errors_pb2', globals())
@@ -24,6 +25,8 @@ if _descriptor._USE_C_DESCRIPTORS == False:
 
   DESCRIPTOR._options = None
   DESCRIPTOR._serialized_options = b'Z+github.com/fugad/fugad/api/fugad/v1;fugadv1'
-  _NOTCONVERGEDDETAIL._serialized_start=108
-  _NOTCONVERGEDDETAIL._serialized_end=319
+  _NOTCONVERGEDDETAIL._serialized_start=133
+  _NOTCONVERGEDDETAIL._serialized_end=397
+  _NOSATURATIONDETAIL._serialized_start=400
+  _NOSATURATIONDETAIL._serialized_end=819
 # @@protoc_insertion_point(module_scope)

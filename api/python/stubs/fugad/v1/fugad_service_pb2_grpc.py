@@ -19,6 +19,17 @@ class FugadServiceStub(object):
     - INVALID_ARGUMENT (reason INVALID_REQUEST, or LIMIT_EXCEEDED for a
     request over a configured size limit): a google.rpc.BadRequest names
     each offending field path (e.g. "fluid.components[2].id") and why.
+    A state-function flash (P–H, P–S, T–V, U–V) whose specification no
+    state inside the solver's search range reaches (for example an
+    enthalpy above that of the feed at 3000 K) is the caller's input
+    problem: INVALID_ARGUMENT, reason SPECIFICATION_UNREACHABLE, with a
+    field violation on the specified value that gives the bound and the
+    value the fluid has there.
+    - FAILED_PRECONDITION (reason NO_SATURATION_POINT): the feed has no
+    saturation point of the requested kind at the specification
+    (SaturationPoint, or a flash at a vapour fraction): a
+    NoSaturationDetail carries the numbers, with the cricondentherm and
+    cricondenbar when an envelope was traced to decide. Not retryable.
     - UNAVAILABLE (reason OVERLOADED): the server's solver pool is full;
     retry, ideally on another replica.
     - DEADLINE_EXCEEDED / CANCELLED: the call's deadline passed or it was
@@ -94,6 +105,17 @@ class FugadServiceServicer(object):
     - INVALID_ARGUMENT (reason INVALID_REQUEST, or LIMIT_EXCEEDED for a
     request over a configured size limit): a google.rpc.BadRequest names
     each offending field path (e.g. "fluid.components[2].id") and why.
+    A state-function flash (P–H, P–S, T–V, U–V) whose specification no
+    state inside the solver's search range reaches (for example an
+    enthalpy above that of the feed at 3000 K) is the caller's input
+    problem: INVALID_ARGUMENT, reason SPECIFICATION_UNREACHABLE, with a
+    field violation on the specified value that gives the bound and the
+    value the fluid has there.
+    - FAILED_PRECONDITION (reason NO_SATURATION_POINT): the feed has no
+    saturation point of the requested kind at the specification
+    (SaturationPoint, or a flash at a vapour fraction): a
+    NoSaturationDetail carries the numbers, with the cricondentherm and
+    cricondenbar when an envelope was traced to decide. Not retryable.
     - UNAVAILABLE (reason OVERLOADED): the server's solver pool is full;
     retry, ideally on another replica.
     - DEADLINE_EXCEEDED / CANCELLED: the call's deadline passed or it was
@@ -236,6 +258,17 @@ class FugadService(object):
     - INVALID_ARGUMENT (reason INVALID_REQUEST, or LIMIT_EXCEEDED for a
     request over a configured size limit): a google.rpc.BadRequest names
     each offending field path (e.g. "fluid.components[2].id") and why.
+    A state-function flash (P–H, P–S, T–V, U–V) whose specification no
+    state inside the solver's search range reaches (for example an
+    enthalpy above that of the feed at 3000 K) is the caller's input
+    problem: INVALID_ARGUMENT, reason SPECIFICATION_UNREACHABLE, with a
+    field violation on the specified value that gives the bound and the
+    value the fluid has there.
+    - FAILED_PRECONDITION (reason NO_SATURATION_POINT): the feed has no
+    saturation point of the requested kind at the specification
+    (SaturationPoint, or a flash at a vapour fraction): a
+    NoSaturationDetail carries the numbers, with the cricondentherm and
+    cricondenbar when an envelope was traced to decide. Not retryable.
     - UNAVAILABLE (reason OVERLOADED): the server's solver pool is full;
     retry, ideally on another replica.
     - DEADLINE_EXCEEDED / CANCELLED: the call's deadline passed or it was

@@ -15,7 +15,7 @@ from fugad.v1 import fluid_pb2 as fugad_dot_v1_dot_fluid__pb2
 from fugad.v1 import solver_pb2 as fugad_dot_v1_dot_solver__pb2
 
 
-DESCRIPTOR = _descriptor_pool.Default().AddSerializedFile(b'\n\x19\x66ugad/v1/saturation.proto\x12\x08\x66ugad.v1\x1a\x14\x66ugad/v1/fluid.proto\x1a\x15\x66ugad/v1/solver.proto\"\x9e\x02\n\x16SaturationPointRequest\x12\x1e\n\x05\x66luid\x18\x01 \x01(\x0b\x32\x0f.fugad.v1.Fluid\x12\x16\n\x0emole_fractions\x18\x02 \x03(\x01\x12&\n\x04type\x18\x03 \x01(\x0e\x32\x18.fugad.v1.SaturationType\x12\x17\n\rtemperature_k\x18\x04 \x01(\x01H\x00\x12\x15\n\x0bpressure_pa\x18\x05 \x01(\x01H\x00\x12\'\n\nwarm_start\x18\x06 \x01(\x0b\x32\x13.fugad.v1.WarmStart\x12(\n\x07options\x18\x07 \x01(\x0b\x32\x17.fugad.v1.SolverOptions\x12\x14\n\x0c\x62ypass_cache\x18\x08 \x01(\x08\x42\x0b\n\tspecified\"\xf9\x01\n\x17SaturationPointResponse\x12\x15\n\rtemperature_k\x18\x01 \x01(\x01\x12\x13\n\x0bpressure_pa\x18\x02 \x01(\x01\x12-\n\x0fincipient_phase\x18\x03 \x01(\x0e\x32\x14.fugad.v1.PhaseLabel\x12 \n\x18incipient_mole_fractions\x18\x04 \x03(\x01\x12\x10\n\x08k_values\x18\x05 \x03(\x01\x12\'\n\nwarm_start\x18\x06 \x01(\x0b\x32\x13.fugad.v1.WarmStart\x12&\n\x06report\x18\x07 \x01(\x0b\x32\x16.fugad.v1.SolverReport*f\n\x0eSaturationType\x12\x1f\n\x1bSATURATION_TYPE_UNSPECIFIED\x10\x00\x12\x1a\n\x16SATURATION_TYPE_BUBBLE\x10\x01\x12\x17\n\x13SATURATION_TYPE_DEW\x10\x02\x42-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3')
+DESCRIPTOR = _descriptor_pool.Default().AddSerializedFile(b'\n\x19\x66ugad/v1/saturation.proto\x12\x08\x66ugad.v1\x1a\x14\x66ugad/v1/fluid.proto\x1a\x15\x66ugad/v1/solver.proto\"\xca\x02\n\x16SaturationPointRequest\x12\x1e\n\x05\x66luid\x18\x01 \x01(\x0b\x32\x0f.fugad.v1.Fluid\x12\x16\n\x0emole_fractions\x18\x02 \x03(\x01\x12&\n\x04type\x18\x03 \x01(\x0e\x32\x18.fugad.v1.SaturationType\x12\x17\n\rtemperature_k\x18\x04 \x01(\x01H\x00\x12\x15\n\x0bpressure_pa\x18\x05 \x01(\x01H\x00\x12\'\n\nwarm_start\x18\x06 \x01(\x0b\x32\x13.fugad.v1.WarmStart\x12(\n\x07options\x18\x07 \x01(\x0b\x32\x17.fugad.v1.SolverOptions\x12\x14\n\x0c\x62ypass_cache\x18\x08 \x01(\x08\x12*\n\x06\x62ranch\x18\t \x01(\x0e\x32\x1a.fugad.v1.SaturationBranchB\x0b\n\tspecified\"\xc9\x02\n\x17SaturationPointResponse\x12\x15\n\rtemperature_k\x18\x01 \x01(\x01\x12\x13\n\x0bpressure_pa\x18\x02 \x01(\x01\x12-\n\x0fincipient_phase\x18\x03 \x01(\x0e\x32\x14.fugad.v1.PhaseLabel\x12 \n\x18incipient_mole_fractions\x18\x04 \x03(\x01\x12\x10\n\x08k_values\x18\x05 \x03(\x01\x12\'\n\nwarm_start\x18\x06 \x01(\x0b\x32\x13.fugad.v1.WarmStart\x12&\n\x06report\x18\x07 \x01(\x0b\x32\x16.fugad.v1.SolverReport\x12&\n\x1eliquid_molar_volume_m3_per_mol\x18\x08 \x01(\x01\x12&\n\x1evapour_molar_volume_m3_per_mol\x18\t \x01(\x01*f\n\x0eSaturationType\x12\x1f\n\x1bSATURATION_TYPE_UNSPECIFIED\x10\x00\x12\x1a\n\x16SATURATION_TYPE_BUBBLE\x10\x01\x12\x17\n\x13SATURATION_TYPE_DEW\x10\x02*o\n\x10SaturationBranch\x12!\n\x1dSATURATION_BRANCH_UNSPECIFIED\x10\x00\x12\x1b\n\x17SATURATION_BRANCH_LOWER\x10\x01\x12\x1b\n\x17SATURATION_BRANCH_UPPER\x10\x02\x42-Z+github.com/fugad/fugad/api/fugad/v1;fugadv1b\x06proto3')
 
 _builder.BuildMessageAndEnumDescriptors(DESCRIPTOR, globals())
 _builder.BuildTopDescriptorsAndMessages(DESCRIPTOR, 'fugad.v1.saturation_pb2', globals())
@@ -23,10 +23,12 @@ if _descriptor._USE_C_DESCRIPTORS == False:
 
   DESCRIPTOR._options = None
   DESCRIPTOR._serialized_options = b'Z+github.com/fugad/fugad/api/fugad/v1;fugadv1'
-  _SATURATIONTYPE._serialized_start=625
-  _SATURATIONTYPE._serialized_end=727
+  _SATURATIONTYPE._serialized_start=749
+  _SATURATIONTYPE._serialized_end=851
+  _SATURATIONBRANCH._serialized_start=853
+  _SATURATIONBRANCH._serialized_end=964
   _SATURATIONPOINTREQUEST._serialized_start=85
-  _SATURATIONPOINTREQUEST._serialized_end=371
-  _SATURATIONPOINTRESPONSE._serialized_start=374
-  _SATURATIONPOINTRESPONSE._serialized_end=623
+  _SATURATIONPOINTREQUEST._serialized_end=415
+  _SATURATIONPOINTRESPONSE._serialized_start=418
+  _SATURATIONPOINTRESPONSE._serialized_end=747
 # @@protoc_insertion_point(module_scope)

@@ -1,0 +1,52 @@
+#!/usr/bin/env bash
+# Runs every fuzz target of the project for a bounded time each. Go fuzzes
+# one target per invocation, so each gets its own `go test -fuzz` run.
+#
+#   scripts/fuzz.sh            # 10 s per target
+#   FUZZTIME=30s scripts/fuzz.sh
+#   scripts/fuzz.sh FuzzFugacity FuzzFlashRequest   # only these targets
+#
+# A failing input is written by Go to <package>/testdata/fuzz/<target>/ and
+# the script stops with the failure; commit that file to keep the case as a
+# regression seed (plain `go test` runs every file there). The seed corpora
+# are described in testdata/README.md.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+fuzztime="${FUZZTIME:-10s}"
+
+# package:target, in the order cheapest first.
+targets=(
+	thermo/component:FuzzLookup
+	thermo/component:FuzzPseudoFromBoilingPoint
+	thermo/component:FuzzPseudoFromMolarMass
+	thermo/component:FuzzDefine
+	thermo/eos:FuzzFugacity
+	server:FuzzFugacityCoefficientsRequest
+	server:FuzzFlashRequest
+	server:FuzzFlashBatchRequest
+	server:FuzzPhaseEnvelopeRequest
+	server:FuzzSaturationPointRequest
+	server:FuzzFlashStreamMessages
+)
+
+want=("$@")
+ran=0
+for entry in "${targets[@]}"; do
+	pkg="${entry%%:*}"
+	name="${entry##*:}"
+	if [ "${#want[@]}" -gt 0 ]; then
+		match=false
+		for w in "${want[@]}"; do
+			[ "$w" = "$name" ] && match=true
+		done
+		$match || continue
+	fi
+	printf '\n== fuzz %s (%s, %s)\n' "$name" "$pkg" "$fuzztime"
+	go test -run '^$' -fuzz "^${name}\$" -fuzztime "$fuzztime" "./${pkg}/"
+	ran=$((ran + 1))
+done
+if [ "$ran" -eq 0 ]; then
+	echo "no fuzz target matched: $*" >&2
+	exit 2
+fi
