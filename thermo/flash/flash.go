@@ -44,6 +44,8 @@ func (ws *Workspace) begin(ctx context.Context, set settings, rep *Report, T, P 
 	ws.mx.LnWilsonK(T, P, ws.lnKw)
 	ws.setupTrials()
 	ws.m = 0
+	ws.facOK, ws.sensOK, ws.pcOK = false, false, false
+	ws.warmShift, ws.warmSame, ws.warmSens = false, false, false
 	return nil
 }
 
@@ -168,7 +170,67 @@ func (ws *Workspace) copyWarm(e *Estimate) (int, error) {
 	default:
 		return 0, &InputError{Field: "warm.X", Reason: "an estimate of two or more phases needs X (or LnK for two phases)"}
 	}
+	if err := ws.copyShift(e); err != nil {
+		return 0, err
+	}
 	return k, nil
+}
+
+// copyShift validates the state and sensitivities of an estimate and,
+// for two phases with all of them given, sets the first-order shift of
+// ln K to the current state in ws.warmDL (ws.warmShift).
+func (ws *Workspace) copyShift(e *Estimate) error {
+	if !finite(e.T) || e.T < 0 {
+		return &InputError{Field: "warm.T", Value: e.T, Reason: "must be a finite positive temperature in K, or zero (unknown)"}
+	}
+	if !finite(e.P) || e.P < 0 {
+		return &InputError{Field: "warm.P", Value: e.P, Reason: "must be a finite positive pressure in Pa, or zero (unknown)"}
+	}
+	for _, s := range [...]struct {
+		name string
+		v    []float64
+	}{{"warm.DLnKDT", e.DLnKDT}, {"warm.DLnKDP", e.DLnKDP}} {
+		if s.v == nil {
+			continue
+		}
+		if len(s.v) != ws.n {
+			return &InputError{Field: s.name, Value: float64(len(s.v)), Reason: fmt.Sprintf("has %d entries, the mixture %d components", len(s.v), ws.n)}
+		}
+		for i, v := range s.v {
+			if !finite(v) {
+				return &InputError{Field: fmt.Sprintf("%s[%d]", s.name, i), Value: v, Reason: "must be finite"}
+			}
+		}
+	}
+	ws.warmSame = e.T == ws.T && e.P == ws.P
+	if e.Phases != 2 || e.T == 0 || e.P == 0 || e.DLnKDT == nil || e.DLnKDP == nil {
+		return nil
+	}
+	if ws.warmSame {
+		// An estimate of this very state (a confirming flash): should it
+		// need no Newton step, its sensitivities are the result's.
+		copy(ws.sensT, e.DLnKDT)
+		copy(ws.sensP, e.DLnKDP)
+		ws.warmSens = true
+		return nil
+	}
+	dT, dP := ws.T-e.T, ws.P-e.P
+	big := 0.0
+	for _, i := range ws.act {
+		d := e.DLnKDT[i]*dT + e.DLnKDP[i]*dP
+		ws.warmDL[i] = d
+		big = max(big, math.Abs(d))
+	}
+	if !finite(big) {
+		return nil
+	}
+	if big > 1 {
+		for _, i := range ws.act {
+			ws.warmDL[i] /= big
+		}
+	}
+	ws.warmShift = true
+	return nil
 }
 
 // Split converges the phase split of feed z at T and P from an estimate
@@ -218,10 +280,25 @@ func (ws *Workspace) warmSolve(k int, e *Estimate, verify bool) (bool, error) {
 		for _, i := range ws.act {
 			ws.lnK[i] = math.Log(max(ws.warmX[0][i], tiny) / max(ws.warmX[1][i], tiny))
 		}
+		if ws.warmShift {
+			for _, i := range ws.act {
+				ws.lnK[i] += ws.warmDL[i]
+			}
+		}
 		if ws.setTwoFromK(ws.warmBeta[0]) != rrRoot {
 			return false, nil
 		}
-		st, err = ws.solveSplit(ws.betaInside(), false)
+		if ws.warmSame && ws.betaInside() {
+			// An estimate of this very state is likely converged already:
+			// its first evaluation leaves out ∂ln φ/∂n, which the first
+			// Newton step adds should one be needed.
+			if err := ws.evalAll(eos.WantT | eos.WantP); err != nil {
+				return false, err
+			}
+			st, err = ws.solveSplit(true, true)
+		} else {
+			st, err = ws.solveSplit(ws.betaInside(), false)
+		}
 	} else {
 		for j := range k {
 			p := &ws.ph[j]
@@ -264,6 +341,7 @@ func (ws *Workspace) warmSolve(k int, e *Estimate, verify bool) (bool, error) {
 // cold runs the full path: stability of the feed, two-phase split, test,
 // third phase, test.
 func (ws *Workspace) cold() error {
+	ws.warmSens = false
 	if err := ws.feedReference(); err != nil {
 		return err
 	}
@@ -440,6 +518,19 @@ func (ws *Workspace) finish(res *Result, path Path) error {
 	o.MolarDensity = 1 / o.MolarVolume
 	o.MassDensity = o.MolarMass / o.MolarVolume
 	res.Overall = o
+	if res.sensOK && ws.pcOK && !ws.facShift {
+		d := ws.pc
+		for k := range res.Phases {
+			pr, b := &res.Phases[k].Props, res.Phases[k].Beta
+			vT := -pr.DPDT / pr.DPDV
+			d.HT += b * pr.Cp
+			d.HP += b * (pr.MolarVolume - ws.T*vT)
+			d.VT += b * vT
+			d.VP += b / pr.DPDV
+		}
+		res.deriv = d
+		res.derivOK = finite(d.HT) && finite(d.HP) && finite(d.VT) && finite(d.VP)
+	}
 	return nil
 }
 
@@ -507,6 +598,18 @@ func (ws *Workspace) fill(res *Result, path Path, converged bool) {
 	}
 	for i := range res.LnK {
 		res.LnK[i] = 0
+		res.dLnKdT[i], res.dLnKdP[i] = 0, 0
+	}
+	res.sensOK = m == 2 && converged && ws.sensOK
+	res.deriv, res.derivOK = StateDerivatives{}, false
+	if res.sensOK {
+		sg := 1.0
+		if order[0] != 0 {
+			sg = -1
+		}
+		for _, i := range ws.act {
+			res.dLnKdT[i], res.dLnKdP[i] = sg*ws.sensT[i], sg*ws.sensP[i]
+		}
 	}
 	if m >= 2 {
 		first, last := &res.phaseBuf[0], &res.phaseBuf[m-1]

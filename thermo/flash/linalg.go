@@ -62,8 +62,9 @@ func cholSolve(l []float64, n int, b []float64) {
 // μ = 1e-8, 1e-6, …, 1e8 (Levenberg–Marquardt shift), which keeps dx a
 // descent direction of a function whose gradient is g. work must hold n·n
 // values and sc n values. It reports false when no shift gives a
-// factorisation (h has a non-finite entry).
-func solveSPD(h []float64, n int, g, dx, work, sc []float64) bool {
+// factorisation (h has a non-finite entry), and shifted when the factor
+// left in work is of a shifted matrix.
+func solveSPD(h []float64, n int, g, dx, work, sc []float64) (ok, shifted bool) {
 	h, work, sc = h[:n*n], work[:n*n], sc[:n]
 	for i := range n {
 		d := h[i*n+i]
@@ -93,10 +94,10 @@ func solveSPD(h []float64, n int, g, dx, work, sc []float64) bool {
 			for i := range n {
 				dx[i] *= sc[i]
 				if !finite(dx[i]) {
-					return false
+					return false, mu > 0
 				}
 			}
-			return true
+			return true, mu > 0
 		}
 		if mu == 0 {
 			mu = 1e-8
@@ -104,5 +105,5 @@ func solveSPD(h []float64, n int, g, dx, work, sc []float64) bool {
 			mu *= 100
 		}
 	}
-	return false
+	return false, true
 }

@@ -138,6 +138,13 @@ type Result struct {
 	LnK    []float64
 	Report Report
 
+	// dLnKdT and dLnKdP hold d ln K_i/dT and d ln K_i/dP of a converged
+	// two-phase result when sensOK.
+	dLnKdT, dLnKdP []float64
+	sensOK         bool
+	deriv          StateDerivatives
+	derivOK        bool
+
 	phaseBuf [MaxPhases]Phase
 	betaBuf  [MaxPhases]float64
 	xBuf     [MaxPhases][]float64
@@ -147,7 +154,8 @@ type Result struct {
 // NewResult returns a Result sized for mx.
 func NewResult(mx *eos.Mixture) *Result {
 	n := mx.N()
-	r := &Result{Z: make([]float64, n), LnK: make([]float64, n), n: n}
+	r := &Result{Z: make([]float64, n), LnK: make([]float64, n), n: n,
+		dLnKdT: make([]float64, n), dLnKdP: make([]float64, n)}
 	for k := range r.phaseBuf {
 		r.phaseBuf[k].X = make([]float64, n)
 		r.phaseBuf[k].LnPhi = make([]float64, n)
@@ -155,6 +163,30 @@ func NewResult(mx *eos.Mixture) *Result {
 	}
 	r.Phases = r.phaseBuf[:0]
 	return r
+}
+
+// StateDerivatives are derivatives of the equilibrium state per mole of
+// feed at fixed feed, the change of the phase split included: (∂H/∂T)_P
+// (the total heat capacity, J/(mol·K)), (∂H/∂P)_T (J/(mol·Pa)),
+// (∂V/∂T)_P (m³/(mol·K)) and (∂V/∂P)_T (m³/(mol·Pa)). With two phases
+// (Michelsen & Mollerup 2007, ch. 11)
+//
+//	∂H/∂θ = Σ_k β_k ∂h_k/∂θ + Σ_i (h̄_i1 − h̄_i0)·dn_i1/dθ,  θ = T, P,
+//
+// h̄ the partial molar enthalpies and dn_i1/dθ the change of the split
+// from the differentiated fugacity equality; V likewise with v̄.
+type StateDerivatives struct {
+	HT, HP, VT, VP float64
+}
+
+// Derivatives returns the state derivatives of a converged two-phase
+// result, computed with the Hessian factor of the Newton solve (accurate
+// to about the residual of its last steps, enough for a Newton method on
+// T or P), and false when they are not available: other phase counts,
+// Options.NoProperties, a split converged without a Newton step or with a
+// shifted Hessian.
+func (r *Result) Derivatives() (StateDerivatives, bool) {
+	return r.deriv, r.derivOK
 }
 
 // Estimate is a starting point for a flash: the phase count, amounts and
@@ -170,9 +202,22 @@ type Estimate struct {
 	X [][]float64
 	// LnK holds ln(x_i,phase0/x_i,phase1) for a two-phase estimate.
 	LnK []float64
+	// T and P are the temperature (K) and pressure (Pa) of the state the
+	// estimate describes (optional; zero means unknown).
+	T, P float64
+	// DLnKDT and DLnKDP hold d ln K_i/dT (1/K) and d ln K_i/dP (1/Pa) of a
+	// two-phase estimate at (T, P), K_i as in LnK (optional, len n each;
+	// nil means unknown). With T, P and both set, a flash at (T', P')
+	// starts from the K-values shifted to first order,
+	//	ln K_i + DLnKDT_i·(T' − T) + DLnKDP_i·(P' − P),
+	// (the largest shift limited to 1), which saves Newton steps when the
+	// state moves by small steps, as between timesteps.
+	DLnKDT, DLnKDP []float64
 }
 
-// Estimate returns the result as a warm start for the next flash. The
+// Estimate returns the result as a warm start for the next flash, with
+// its state (T, P) and, for a converged two-phase result, the
+// sensitivities of its K-values (from the end of the Newton solve). The
 // returned value shares the result's memory (no allocation); a flash
 // copies its estimate before writing, so passing a Result's own estimate
 // back into a flash that writes the same Result is safe.
@@ -181,9 +226,12 @@ func (r *Result) Estimate() Estimate {
 	for i := range k {
 		r.betaBuf[i] = r.Phases[i].Beta
 	}
-	e := Estimate{Phases: k, Beta: r.betaBuf[:k], X: r.xBuf[:k]}
+	e := Estimate{Phases: k, Beta: r.betaBuf[:k], X: r.xBuf[:k], T: r.T, P: r.P}
 	if k >= 2 {
 		e.LnK = r.LnK
+	}
+	if k == 2 && r.sensOK {
+		e.DLnKDT, e.DLnKDP = r.dLnKdT, r.dLnKdP
 	}
 	return e
 }

@@ -79,12 +79,17 @@ func rachfordRice(z, K []float64, act []int, start float64) (float64, int, rrSta
 			hi = b
 		}
 		nb := b - f/df
+		// Converged before the bracket test: at the root the Newton step
+		// is of round-off size and may land on the bracket end just set
+		// (b itself), which must not be taken for a step out of it.
+		if math.Abs(nb-b) <= 1e-15*(1+math.Abs(b)) {
+			if nb > lo && nb < hi {
+				b = nb
+			}
+			break
+		}
 		if !(nb > lo && nb < hi) {
 			nb = 0.5 * (lo + hi)
-		}
-		if math.Abs(nb-b) <= 1e-15*(1+math.Abs(b)) {
-			b = nb
-			break
 		}
 		b = nb
 	}

@@ -25,6 +25,12 @@ const (
 	// lazyDN: a Newton step from residual r is expected to converge when
 	// r² < lazyDN·tolerance (quadratic convergence with a modest constant).
 	lazyDN = 0.1
+	// chordMax and chordGain: a chord step (the factor of an earlier
+	// Hessian with the current gradient) is taken when the residual at the
+	// factor's point was below chordMax and the last step reduced the
+	// residual by at least chordGain.
+	chordMax  = 1e-3
+	chordGain = 0.1
 )
 
 // residual returns max_{i,k} |ln f_ik − ln f_i0| over the present phases.
@@ -170,37 +176,77 @@ func (ws *Workspace) solveSplit(newtonFirst, fresh bool) (splitStatus, error) {
 	}
 	ss := 0 // SS steps since the last Newton attempt
 	resid := ws.residual()
+	prevResid := math.Inf(1) // residual before the last Newton step
+	ws.facOK = false
+	tp := eos.Want(0)
+	if ws.m == 2 {
+		tp = eos.WantT | eos.WantP
+	}
 	for it := 0; it < ws.set.maxIt; it++ {
 		if err := ws.stop(); err != nil {
 			return splitFail, err
 		}
 		if resid <= ws.set.tol {
 			if ws.betaInside() {
+				ws.sensitivities()
+				if !ws.sensOK && it == 0 && ws.warmSens && ws.m == 2 {
+					// Converged where the estimate was, which brought
+					// its sensitivities (copyShift).
+					ws.sensOK = true
+				}
 				return splitOK, nil
 			}
 			return splitSingle, nil
 		}
 		if newton {
-			if !ws.ph[0].hasDN || !ws.ph[1].hasDN || (ws.m > 2 && !ws.ph[2].hasDN) {
+			// A chord step reuses the factor of an earlier Hessian: near
+			// the solution its error contracts by a factor of the order of
+			// the residual at that earlier point, so it finishes what a
+			// Newton step started without the composition derivatives.
+			chord := ws.facOK && ws.facResid < chordMax && resid < chordGain*prevResid
+			if !chord && (!ws.ph[0].hasDN || !ws.ph[1].hasDN || (ws.m > 2 && !ws.ph[2].hasDN)) {
 				if err := ws.evalAll(eos.WantN); err != nil {
 					return splitFail, err
 				}
 			}
-			// Near the solution Newton converges quadratically: when the
-			// step is expected to reach the tolerance its end point is
-			// evaluated without the composition derivatives (they are
-			// added at the top of the loop should it fall short).
+			// Near the solution the end point of the step is evaluated
+			// without the composition derivatives (they are added at the
+			// top of the loop should a Newton step be needed), and with
+			// the T and P derivatives when the step is expected to
+			// converge (for the sensitivities of the result).
 			next := eos.WantN
-			if resid*resid < lazyDN*ws.set.tol {
+			var ok bool
+			var err error
+			if chord {
 				next = 0
+				if ws.facResid*resid < lazyDN*ws.set.tol {
+					next = tp
+				}
+				prevResid = resid
+				ok, err = ws.chordStep(next)
+			} else {
+				switch {
+				case resid*resid < lazyDN*ws.set.tol:
+					next = tp
+				case resid < chordMax && ws.m == 2:
+					next = 0
+				}
+				prevResid = resid
+				ok, err = ws.newtonStep(next, resid)
 			}
-			ok, err := ws.newtonStep(next)
 			if err != nil {
 				return splitFail, err
+			}
+			if !ok && chord {
+				// The line search restored the start with ∂ln φ/∂n: take
+				// a Newton step from there.
+				ws.facOK = false
+				continue
 			}
 			if ok {
 				resid = ws.residual()
 				if k := ws.vanished(); k >= 0 {
+					ws.facOK = false
 					ws.removePhase(k)
 					if ws.m < 2 {
 						return splitSingle, nil
@@ -218,6 +264,7 @@ func (ws *Workspace) solveSplit(newtonFirst, fresh bool) (splitStatus, error) {
 				}
 				continue
 			}
+			ws.facOK = false
 			newton = false
 			ss = 0
 			if ws.m == 2 {
@@ -384,25 +431,16 @@ func (ws *Workspace) ssMulti(want eos.Want) error {
 // predicted decrease is below round-off, the full step is taken. It
 // reports false when no step is accepted (the caller falls back to
 // successive substitution).
-func (ws *Workspace) newtonStep(want eos.Want) (bool, error) {
+func (ws *Workspace) newtonStep(want eos.Want, resid float64) (bool, error) {
 	m := ws.m
-	var dep [64]int8
-	depOf := func(i int) int {
-		if i < len(dep) {
-			return int(dep[i])
-		}
-		return ws.depPhase(i)
-	}
 	for _, i := range ws.act {
-		if i < len(dep) {
-			dep[i] = int8(ws.depPhase(i))
-		}
+		ws.dep[i] = ws.depPhase(i)
 	}
 	// Unknown p ↔ (component, phase).
 	vi, vk := ws.vi, ws.vk
 	dim := 0
 	for _, i := range ws.act {
-		r := depOf(i)
+		r := ws.dep[i]
 		for k := range m {
 			if k != r {
 				vi[dim], vk[dim] = i, k
@@ -414,11 +452,53 @@ func (ws *Workspace) newtonStep(want eos.Want) (bool, error) {
 	if m == 2 {
 		ws.hessian2(dim)
 	} else {
-		ws.hessianM(dim, depOf)
+		ws.hessianM(dim)
 	}
-	if !solveSPD(h, dim, g, dx, ws.L[:dim*dim], ws.sc[:dim]) {
+	ws.facOK = false
+	ok, shifted := solveSPD(h, dim, g, dx, ws.L[:dim*dim], ws.sc[:dim])
+	if !ok {
 		return false, nil
 	}
+	if m == 2 {
+		ws.facOK, ws.facDim, ws.facResid, ws.facShift = true, dim, resid, shifted
+	}
+	return ws.lineSearch(dim, want)
+}
+
+// chordStep takes the step of newtonStep with the Hessian factor kept from
+// the last Newton step of a two-phase split (ws.facOK) and the current
+// gradient: a chord (simplified Newton) step, whose error contracts by a
+// factor of the order of the distance from the factor's point.
+func (ws *Workspace) chordStep(want eos.Want) (bool, error) {
+	dim := ws.facDim
+	p0, p1 := &ws.ph[0], &ws.ph[1]
+	g, dx, sc := ws.g[:dim], ws.dx[:dim], ws.sc[:dim]
+	for a, i := range ws.vi[:dim] {
+		d := p0.lnf[i] - p1.lnf[i]
+		if ws.vk[a] == 1 {
+			d = -d
+		}
+		g[a] = d
+		dx[a] = -d * sc[a]
+	}
+	cholSolve(ws.L[:dim*dim], dim, dx)
+	for a := range dx {
+		dx[a] *= sc[a]
+		if !finite(dx[a]) {
+			return false, nil
+		}
+	}
+	return ws.lineSearch(dim, want)
+}
+
+// lineSearch moves the mole numbers along the direction ws.dx of the
+// unknowns ws.vi, ws.vk (dependent phases ws.dep) with the step cut and
+// Armijo halving of newtonStep, evaluating the phases with want.
+func (ws *Workspace) lineSearch(dim int, want eos.Want) (bool, error) {
+	m := ws.m
+	vi, vk := ws.vi, ws.vk
+	g, dx := ws.g[:dim], ws.dx[:dim]
+	dep := ws.dep
 	slope := 0.0
 	for p := range dim {
 		slope += g[p] * dx[p]
@@ -442,7 +522,7 @@ func (ws *Workspace) newtonStep(want eos.Want) (bool, error) {
 		}
 	}
 	for _, i := range ws.act {
-		if nm := ws.ph[depOf(i)].nm[i]; ddep[i] < 0 && nm+ddep[i] <= 0 {
+		if nm := ws.ph[dep[i]].nm[i]; ddep[i] < 0 && nm+ddep[i] <= 0 {
 			tmax = min(tmax, 0.9*nm/-ddep[i])
 		}
 	}
@@ -462,7 +542,7 @@ func (ws *Workspace) newtonStep(want eos.Want) (bool, error) {
 			ws.ph[k].nm[i] = ws.ph[k].nm0[i] + t*dx[p]
 		}
 		for _, i := range ws.act {
-			r := depOf(i)
+			r := dep[i]
 			ws.ph[r].nm[i] = ws.ph[r].nm0[i] + t*ddep[i]
 		}
 		ws.molesToX()
@@ -529,7 +609,7 @@ func (ws *Workspace) hessian2(dim int) {
 
 // hessianM fills ws.H and ws.g for any phase count by the expression of
 // newtonStep, from A^k_ij = (δ_ij/x_ik − 1 + DN^k_ij)/β_k stored per phase.
-func (ws *Workspace) hessianM(dim int, depOf func(int) int) {
+func (ws *Workspace) hessianM(dim int) {
 	n, m := ws.n, ws.m
 	A := ws.A
 	for k := range m {
@@ -546,11 +626,11 @@ func (ws *Workspace) hessianM(dim int, depOf func(int) int) {
 	h, g := ws.H[:dim*dim], ws.g[:dim]
 	for p := range dim {
 		i, k := ws.vi[p], ws.vk[p]
-		ri := depOf(i)
+		ri := ws.dep[i]
 		g[p] = ws.ph[k].lnf[i] - ws.ph[ri].lnf[i]
 		for q := p; q < dim; q++ {
 			j, l := ws.vi[q], ws.vk[q]
-			rj := depOf(j)
+			rj := ws.dep[j]
 			ij := i*n + j
 			v := 0.0
 			if k == l {
@@ -584,4 +664,75 @@ func (ws *Workspace) molesToX() {
 			p.x[i] = max(p.nm[i], 0) / s
 		}
 	}
+}
+
+// sensitivities computes the first-order change of the converged
+// two-phase split with temperature and pressure, from the equilibrium
+// condition g(n; T, P) = 0 of newtonStep differentiated at fixed feed,
+//
+//	H·∂n/∂θ = −∂g/∂θ,  ∂g_i/∂θ = σ_i (∂ln φ_i0/∂θ − ∂ln φ_i1/∂θ),  θ = T, P,
+//
+// with the Hessian factor kept from the last Newton step (a point within
+// the residual of the last steps of the solution, which is accurate
+// enough for a starting estimate), and then
+//
+//	d ln K_i/dθ = dn_i0/dθ·(1/n_i0 + 1/n_i1) − dβ_0/dθ·(1/β_0 + 1/β_1),
+//
+// K_i = x_i0/x_i1, dβ_0 = Σ_i dn_i0 (Michelsen & Mollerup 2007, ch. 11).
+// It needs ∂ln φ/∂T and ∂ln φ/∂P of both phases at the solution; without
+// them (or the factor) ws.sensOK stays false.
+func (ws *Workspace) sensitivities() {
+	ws.sensOK, ws.pcOK = false, false
+	p0, p1 := &ws.ph[0], &ws.ph[1]
+	if ws.m != 2 || !ws.facOK || !p0.hasTP || !p1.hasTP {
+		return
+	}
+	dim := ws.facDim
+	bT, bP, sc := ws.dx[:dim], ws.g[:dim], ws.sc[:dim]
+	for a, i := range ws.vi[:dim] {
+		s := sc[a]
+		if ws.vk[a] == 1 {
+			s = -s
+		}
+		bT[a] = -(p0.f.DT[i] - p1.f.DT[i]) * s
+		bP[a] = -(p0.f.DP[i] - p1.f.DP[i]) * s
+	}
+	l := ws.L[:dim*dim]
+	cholSolve(l, dim, bT)
+	cholSolve(l, dim, bP)
+	for i := range ws.n {
+		ws.sensT[i], ws.sensP[i] = 0, 0
+	}
+	dbT, dbP := 0.0, 0.0
+	for a, i := range ws.vi[:dim] {
+		s := sc[a]
+		if ws.vk[a] == 1 {
+			s = -s
+		}
+		ws.sensT[i], ws.sensP[i] = s*bT[a], s*bP[a]
+		dbT += ws.sensT[i]
+		dbP += ws.sensP[i]
+	}
+	cb := 1/p0.beta + 1/p1.beta
+	var q [4]float64
+	for _, i := range ws.act {
+		eT, eP := p1.f.DT[i]-p0.f.DT[i], p1.f.DP[i]-p0.f.DP[i]
+		nT, nP := ws.sensT[i], ws.sensP[i]
+		q[0] += eT * nT
+		q[1] += eT * nP
+		q[2] += eP * nT
+		q[3] += eP * nP
+		c := 1/max(p0.nm[i], tiny) + 1/max(p1.nm[i], tiny)
+		ws.sensT[i] = nT*c - dbT*cb
+		ws.sensP[i] = nP*c - dbP*cb
+		if !finite(ws.sensT[i]) || !finite(ws.sensP[i]) {
+			return
+		}
+	}
+	// Phase-change parts of the state derivatives (see StateDerivatives):
+	// Σ_i (h̄_i1 − h̄_i0)·dn_i1/dθ with h̄_i1 − h̄_i0 = −RT²(∂ln φ_i1/∂T −
+	// ∂ln φ_i0/∂T) and dn_i1 = −dn_i0, and likewise for v̄ with RT ∂/∂P.
+	rt := eos.R * ws.T
+	ws.pc = StateDerivatives{HT: rt * ws.T * q[0], HP: rt * ws.T * q[1], VT: -rt * q[2], VP: -rt * q[3]}
+	ws.sensOK, ws.pcOK = true, true
 }

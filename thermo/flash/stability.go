@@ -279,9 +279,15 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		}
 		// Distance of the next iterate from the reference and from every
 		// phase already found.
-		near := ws.dist(lnW, ws.lnWn, lnRef) < trivialTol
+		dRef := ws.dist(lnW, ws.lnWn, lnRef)
+		near := dRef < trivialTol
 		for k := 0; k < nExist && !near; k++ {
-			near = ws.dist(lnW, ws.lnWn, ws.ph[k].lnx) < ws.nearTol
+			if lnx := ws.ph[k].lnx; &lnx[0] == &lnRef[0] {
+				// The reference is this phase (the test of a split).
+				near = dRef < ws.nearTol
+			} else {
+				near = ws.dist(lnW, ws.lnWn, lnx) < ws.nearTol
+			}
 		}
 		if near {
 			ok = false
@@ -372,7 +378,7 @@ func (ws *Workspace) trialNewtonStep(sw float64) bool {
 		}
 		row[a]++
 	}
-	if !solveSPD(h, na, g, ws.dx[:na], ws.L[:na*na], ws.sc[:na]) {
+	if ok, _ := solveSPD(h, na, g, ws.dx[:na], ws.L[:na*na], ws.sc[:na]); !ok {
 		return false
 	}
 	for a, i := range ws.act {

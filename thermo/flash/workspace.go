@@ -22,6 +22,7 @@ type phaseState struct {
 	f     *eos.Fugacity
 	beta  float64
 	hasDN bool
+	hasTP bool // f holds ∂ln φ/∂T and ∂ln φ/∂P of the current x
 }
 
 // trialSpec says how a stability trial starts.
@@ -89,6 +90,20 @@ type Workspace struct {
 	A               []float64 // A^k_ij of the Newton Hessian, (MaxPhases+1)·n·n
 	sig             []float64 // σ_i of the two-phase Hessian
 	vi, vk          []int     // Newton unknown p is n of component vi[p] in phase vk[p]
+	dep             []int     // dependent phase of each component in the Newton step
+	// The Cholesky factor of the last Newton Hessian of a two-phase split
+	// stays in L and sc (facDim unknowns, mapping vi, vk, dep) while facOK;
+	// facResid is the residual at the point where it was evaluated.
+	facOK, facShift bool // facShift: the factor is of a Levenberg-shifted Hessian
+	facDim          int
+	facResid        float64
+
+	// sensitivities d ln K_i/dT and d ln K_i/dP, K_i = x_i0/x_i1 of the
+	// converged two-phase split in ph (valid while sensOK)
+	sensT, sensP []float64
+	sensOK       bool
+	pc           StateDerivatives // phase-change parts of the state derivatives
+	pcOK         bool             // pc is valid
 
 	// multiphase split
 	e  []float64 // e_ik, n×(MaxPhases+1)
@@ -98,6 +113,13 @@ type Workspace struct {
 	// warm-start copy
 	warmX    [MaxPhases][]float64
 	warmBeta [MaxPhases]float64
+	// warmDL is the first-order shift of ln K from the estimate's state to
+	// the current one (set when warmShift).
+	warmDL    []float64
+	warmShift bool
+	// warmSame: the estimate is of the current state; warmSens: its
+	// sensitivities are in sensT, sensP.
+	warmSame, warmSens bool
 }
 
 // NewWorkspace returns a flash workspace for mx.
@@ -120,6 +142,8 @@ func NewWorkspace(mx *eos.Mixture) *Workspace {
 	ws.sc = make([]float64, dim)
 	ws.vi = make([]int, dim)
 	ws.vk = make([]int, dim)
+	ws.dep = make([]int, n)
+	ws.sensT, ws.sensP, ws.warmDL = v(), v(), v()
 	ws.A = make([]float64, (MaxPhases+1)*n*n)
 	ws.sig = make([]float64, dim)
 	for k := range ws.ph {
@@ -155,6 +179,12 @@ func (ws *Workspace) aqueous(x []float64) bool {
 // Mixture returns the mixture the workspace was made for.
 func (ws *Workspace) Mixture() *eos.Mixture { return ws.mx }
 
+// EOSWorkspace returns the eos workspace the flashes evaluate the mixture
+// with (not its aqueous view), for evaluations of the same mixture by the
+// owner of ws between flashes, in the same goroutine: sharing it keeps
+// the temperature-dependent parameters of a state computed once.
+func (ws *Workspace) EOSWorkspace() *eos.Workspace { return ws.ews }
+
 // eval evaluates ln φ of composition x (mole fractions) on the root of
 // lowest Gibbs energy, with the aqueous parameter set when x is aqueous.
 // T and P were validated by begin and every composition the solver forms
@@ -181,6 +211,7 @@ func (ws *Workspace) evalPhase(k int, want eos.Want) error {
 		return err
 	}
 	p.hasDN = want&eos.WantN != 0
+	p.hasTP = want&(eos.WantT|eos.WantP) == eos.WantT|eos.WantP
 	for _, i := range ws.act {
 		p.lnx[i] = safeLog(p.x[i])
 		p.lnf[i] = p.lnx[i] + p.f.LnPhi[i]

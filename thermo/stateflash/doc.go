@@ -76,7 +76,15 @@
 // with (∂S/∂T)_P = C_p,total/T. The system is symmetric positive definite
 // at a stable equilibrium and is solved by Cholesky; where it is not (a
 // near-singular split) the outer iteration uses secant and bisection
-// steps.
+// steps. For two phases the inner T–P flash has solved the same system
+// with the Hessian factor of its Newton method and hands the result on
+// (flash.Result.Derivatives), together with the sensitivities of its
+// K-values, which shift the warm start of the next inner flash to the new
+// temperature to first order.
+//
+// The single-phase seed stops one Newton step short: from a scaled
+// residual below 1e-5 the step is taken unevaluated and the T–P flash
+// that follows checks the specification.
 //
 // Pure components. With a single component present, the two-phase region
 // sits at one temperature for a given pressure (P–H, P–S: Tsat(P)) or one

@@ -72,7 +72,7 @@ func (ws *Workspace) purePressure(res *Result) (bool, error) {
 	if !(lo < hi) {
 		return true, ws.rangeErrP(lo, val, xl, xv)
 	}
-	T, ok := ws.singlePhaseT(0.5*(lo+hi), lo, hi)
+	T, ok := ws.singlePhaseT(0.5*(lo+hi), lo, hi, false)
 	if !ok {
 		if T-lo < 1e-9*T || hi-T < 1e-9*T {
 			return true, ws.rangeErrP(T, val, xl, xv)
@@ -124,6 +124,7 @@ func (ws *Workspace) fillSaturated(res *Result, T, P, beta float64, pl, pv *eos.
 		return err
 	}
 	res.T, res.P = T, P
+	res.sensOK = false
 	copy(res.Z, ws.z)
 	liqLabel := flash.LabelLiquid
 	if c.Family == component.FamilyWater {

@@ -90,6 +90,11 @@ type Result struct {
 	LnK    []float64
 	Report Report
 
+	// dLnKdT and dLnKdP carry the K-value sensitivities of a two-phase
+	// inner result (when sensOK) into Estimate.
+	dLnKdT, dLnKdP []float64
+	sensOK         bool
+
 	phaseBuf [flash.MaxPhases]flash.Phase
 	betaBuf  [flash.MaxPhases]float64
 	xBuf     [flash.MaxPhases][]float64
@@ -99,7 +104,8 @@ type Result struct {
 // NewResult returns a Result sized for mx.
 func NewResult(mx *eos.Mixture) *Result {
 	n := mx.N()
-	r := &Result{Z: make([]float64, n), LnK: make([]float64, n), n: n}
+	r := &Result{Z: make([]float64, n), LnK: make([]float64, n), n: n,
+		dLnKdT: make([]float64, n), dLnKdP: make([]float64, n)}
 	for k := range r.phaseBuf {
 		r.phaseBuf[k].X = make([]float64, n)
 		r.phaseBuf[k].LnPhi = make([]float64, n)
@@ -129,9 +135,12 @@ func (r *Result) Estimate() Estimate {
 	for i := range k {
 		r.betaBuf[i] = r.Phases[i].Beta
 	}
-	e := Estimate{T: r.T, P: r.P, Flash: flash.Estimate{Phases: k, Beta: r.betaBuf[:k], X: r.xBuf[:k]}}
+	e := Estimate{T: r.T, P: r.P, Flash: flash.Estimate{Phases: k, Beta: r.betaBuf[:k], X: r.xBuf[:k], T: r.T, P: r.P}}
 	if k >= 2 {
 		e.Flash.LnK = r.LnK
+	}
+	if k == 2 && r.sensOK {
+		e.Flash.DLnKDT, e.Flash.DLnKDP = r.dLnKdT, r.dLnKdP
 	}
 	return e
 }
@@ -150,4 +159,10 @@ func (r *Result) copyFrom(f *flash.Result) {
 	}
 	r.Overall = f.Overall
 	copy(r.LnK, f.LnK)
+	e := f.Estimate()
+	r.sensOK = e.DLnKDT != nil && e.DLnKDP != nil
+	if r.sensOK {
+		copy(r.dLnKdT, e.DLnKDT)
+		copy(r.dLnKdP, e.DLnKDP)
+	}
 }

@@ -55,8 +55,12 @@ type Workspace struct {
 func NewWorkspace(mx *eos.Mixture) *Workspace {
 	n := mx.N()
 	dim := (flash.MaxPhases - 1) * n
+	fws := flash.NewWorkspace(mx)
 	ws := &Workspace{
-		mx: mx, fws: flash.NewWorkspace(mx), ews: mx.NewWorkspace(), n: n,
+		// One eos workspace for the inner flashes and the outer
+		// evaluations: its temperature-dependent parameters are then
+		// computed once per temperature.
+		mx: mx, fws: fws, ews: fws.EOSWorkspace(), n: n,
 		z: make([]float64, n), act: make([]int, 0, n), pure: -1,
 		fres: flash.NewResult(mx),
 		A:    make([]float64, dim*dim), bT: make([]float64, dim), bP: make([]float64, dim),
@@ -255,6 +259,11 @@ func (ws *Workspace) sensitivities() (bool, error) {
 	}
 	if m == 1 {
 		return finite(s.HT) && finite(s.VP), nil
+	}
+	if d, ok := r.Derivatives(); ok {
+		// The T–P flash solved the same system with its Newton Hessian.
+		*s = sensitivity{HT: d.HT, HP: d.HP, VT: d.VT, VP: d.VP}
+		return s.HT > 0 && s.VP < 0, nil
 	}
 	// Reference phase 0 is the most abundant: its M_0 enters every block.
 	ref := 0
