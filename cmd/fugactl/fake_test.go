@@ -415,10 +415,17 @@ func TestSaturationSent(t *testing.T) {
 	if r.code != exitFailed {
 		t.Errorf("exit %d, %s", r.code, r.stderr)
 	}
-	if len(rec.saturation) != 2 {
+	r = runCLI(t, dial, "", "saturation", "dew", "--branch", "upper", "--model", "PR78", "--fluid", threeFeed, "-T", "35C")
+	if r.code != exitFailed {
+		t.Errorf("exit %d, %s", r.code, r.stderr)
+	}
+	if len(rec.saturation) != 3 {
 		t.Fatalf("%d requests", len(rec.saturation))
 	}
 	d, b := rec.saturation[0], rec.saturation[1]
+	if d.GetBranch() != fugadv1.SaturationBranch_SATURATION_BRANCH_UNSPECIFIED || rec.saturation[2].GetBranch() != fugadv1.SaturationBranch_SATURATION_BRANCH_UPPER {
+		t.Errorf("branches %v, %v: want unspecified, then upper", d.GetBranch(), rec.saturation[2].GetBranch())
+	}
 	if d.GetType() != fugadv1.SaturationType_SATURATION_TYPE_DEW || d.GetPressurePa() != 55e5 || !sameFractions(d.GetMoleFractions(), threeX) {
 		t.Errorf("dew request %v", d)
 	}
@@ -429,6 +436,7 @@ func TestSaturationSent(t *testing.T) {
 		{"saturation", "--model", "PR78", "--fluid", threeFeed, "-P", "55bar"},
 		{"saturation", "dew", "--model", "PR78", "--fluid", threeFeed, "-P", "55bar", "-T", "3C"},
 		{"saturation", "boil", "--model", "PR78", "--fluid", threeFeed, "-P", "55bar"},
+		{"saturation", "dew", "--branch", "middle", "--model", "PR78", "--fluid", threeFeed, "-P", "55bar"},
 	} {
 		if r := runCLI(t, dial, "", args...); r.code != exitUsage {
 			t.Errorf("%v: exit %d, %s", args, r.code, r.stderr)

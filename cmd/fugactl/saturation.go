@@ -33,6 +33,8 @@ Examples (fictional Kestrel Ridge plant):
 		so.register(fs)
 		sf.register(fs, keyT, keyP)
 		fs.StringVar(&kind, "type", "", "bubble or dew (or give it as the first argument)")
+		var branch string
+		fs.StringVar(&branch, "branch", "", "lower or upper: which of two points (e.g. the upper dew pressure of a gas condensate in its retrograde range); default: the solver's choice")
 		return func(args []string) error {
 			if len(args) > 0 {
 				if kind != "" {
@@ -64,6 +66,15 @@ Examples (fictional Kestrel Ridge plant):
 				return err
 			}
 			req := &fugadv1.SaturationPointRequest{Fluid: fd.fluid, MoleFractions: fd.comp.fractions, Type: typ, Options: so.options(), BypassCache: a.g.noCache}
+			switch strings.ToLower(branch) {
+			case "":
+			case "lower":
+				req.Branch = fugadv1.SaturationBranch_SATURATION_BRANCH_LOWER
+			case "upper":
+				req.Branch = fugadv1.SaturationBranch_SATURATION_BRANCH_UPPER
+			default:
+				return usagef("--branch %q: want lower or upper", branch)
+			}
 			f := sf.fields()
 			switch {
 			case f[keyT] != "" && f[keyP] != "":
