@@ -2,6 +2,7 @@ package server
 
 import (
 	"fmt"
+	"strconv"
 	"strings"
 
 	"google.golang.org/genproto/googleapis/rpc/errdetails"
@@ -154,4 +155,4 @@ func fieldPath(parts ...string) string {
 
 // index formats a repeated-field element path, e.g. index("states", 3) is
 // "states[3]".
-func index(field string, i int) string { return fmt.Sprintf("%s[%d]", field, i) }
+func index(field string, i int) string { return field + "[" + strconv.Itoa(i) + "]" }

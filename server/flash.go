@@ -38,6 +38,11 @@ type flashJob struct {
 	// quant is the relative tolerance the inputs were quantised with,
 	// zero when they were not (CacheConfig.Quantization).
 	quant float64
+	// warmOut, when set, receives the warm start of a T–P result this
+	// job's own solve produced (a stream's implicit estimate for its next
+	// message), so that it need not be decoded back out of the answer's
+	// bytes.
+	warmOut *warmCopy
 }
 
 // specValues returns the two specified values of a validated state.
@@ -67,10 +72,18 @@ func specValues(st *fugadv1.FlashState) (a, b float64) {
 // values, the feed and the estimate are rounded here, before the key is
 // built and before the solve, so that both see the same numbers.
 func (s *Server) newFlashJob(cf *compiledFluid, field string, st flashState, warm *fugadv1.WarmStart, opts *fugadv1.SolverOptions, bypass bool) *flashJob {
+	job := new(flashJob)
+	s.fillFlashJob(job, cf, field, st, warm, opts, bypass)
+	return job
+}
+
+// fillFlashJob is newFlashJob into job's memory (a batch allocates its
+// jobs together).
+func (s *Server) fillFlashJob(job *flashJob, cf *compiledFluid, field string, st flashState, warm *fugadv1.WarmStart, opts *fugadv1.SolverOptions, bypass bool) {
 	if warm != nil && len(warm.GetKValues()) == 0 && len(warm.GetPhases()) == 0 && warm.TemperatureK == nil && warm.PressurePa == nil {
 		warm = nil
 	}
-	job := &flashJob{fluid: cf, field: field, spec: st.spec, x: st.x, warm: warm, opts: opts, bypass: bypass}
+	*job = flashJob{fluid: cf, field: field, spec: st.spec, x: st.x, warm: warm, opts: opts, bypass: bypass}
 	job.a, job.b = specValues(st.msg)
 	if q := s.cfg.Cache.Quantization; q > 0 {
 		job.quant = q
@@ -90,7 +103,6 @@ func (s *Server) newFlashJob(cf *compiledFluid, field string, st flashState, war
 			job.warm = w
 		}
 	}
-	return job
 }
 
 // quantizeAll returns a copy of xs rounded by cache.Quantize.
@@ -184,7 +196,7 @@ func (s *Server) Flash(ctx context.Context, req *fugadv1.FlashRequest) (*fugadv1
 		return nil, err
 	}
 	job := s.newFlashJob(cf, "state", st, req.GetState().GetWarmStart(), req.GetOptions(), req.GetBypassCache())
-	res, err := s.answerFlash(ctx, "Flash", req, job, true)
+	res, err := s.answerFlash(ctx, "Flash", req, job, true, nil)
 	if err != nil {
 		return nil, err
 	}
@@ -196,10 +208,11 @@ func (s *Server) Flash(ctx context.Context, req *fugadv1.FlashRequest) (*fugadv1
 // as an encoded FlashResult (see hitMessage). With ownSlot the solve of a
 // miss takes a solver slot of its own (unary calls and stream messages;
 // a hit needs none); without, the caller already holds one (a batch
-// worker). req is logged with a recovered panic; it may be nil.
-func (s *Server) answerFlash(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool) (*fugadv1.FlashResult, error) {
+// worker). req is logged with a recovered panic; it may be nil. dst, when
+// not nil, is the (zero) message a T–P answer is written into.
+func (s *Server) answerFlash(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool, dst *fugadv1.FlashResult) (*fugadv1.FlashResult, error) {
 	if job.spec == specTP {
-		return s.answerTP(ctx, method, req, job, ownSlot)
+		return s.answerTP(ctx, method, req, job, ownSlot, dst)
 	}
 	solve := func(ctx context.Context) (*fugadv1.FlashResult, error) {
 		if !ownSlot {
@@ -230,7 +243,7 @@ func (s *Server) answerFlash(ctx context.Context, method string, req proto.Messa
 // solve ends (solveTPEncoded): the answer is always an encoded
 // FlashResult, whether it came from the cache, from a solve stored in it,
 // or from a solve that bypassed it.
-func (s *Server) answerTP(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool) (*fugadv1.FlashResult, error) {
+func (s *Server) answerTP(ctx context.Context, method string, req proto.Message, job *flashJob, ownSlot bool, dst *fugadv1.FlashResult) (*fugadv1.FlashResult, error) {
 	solve := func(ctx context.Context) ([]byte, error) {
 		if !ownSlot {
 			return s.solveTPEncoded(ctx, job)
@@ -256,7 +269,13 @@ func (s *Server) answerTP(ctx context.Context, method string, req proto.Message,
 	if err != nil {
 		return nil, err
 	}
-	r := new(fugadv1.FlashResult)
+	r := dst
+	if r == nil {
+		r = new(fugadv1.FlashResult)
+	}
+	if hit && job.warmOut != nil {
+		job.warmOut.set = false // not this job's solve
+	}
 	return hitMessage(r, raw, hit, func(rep *fugadv1.SolverReport) { r.Report = rep }), nil
 }
 
@@ -283,10 +302,15 @@ func (s *Server) flashTimed(ctx context.Context, job *flashJob) (*fugadv1.FlashR
 	return res, nil
 }
 
-// statusProto converts a status error to its google.rpc.Status message.
+// okStatus is the google.rpc.Status of every successful batch item and
+// stream message: one shared message, read-only.
+var okStatus = &spb.Status{Code: int32(codes.OK)}
+
+// statusProto converts a status error to its google.rpc.Status message
+// (okStatus, shared and read-only, for nil).
 func statusProto(err error) *spb.Status {
 	if err == nil {
-		return &spb.Status{Code: int32(codes.OK)}
+		return okStatus
 	}
 	st, ok := status.FromError(err)
 	if !ok {
@@ -327,9 +351,14 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 		return nil, err
 	}
 
+	// The items, their results and the jobs are allocated together, one
+	// allocation each for the whole batch.
 	items := make([]*fugadv1.FlashBatchItem, len(states))
+	mem := &batchMemory{items: make([]fugadv1.FlashBatchItem, len(states)), results: make([]fugadv1.FlashResult, len(states))}
 	jobs := make([]*flashJob, len(states))
+	jobMem := make([]flashJob, len(states))
 	for i, st := range states {
+		items[i] = &mem.items[i]
 		var sv violations
 		f := index("states", i)
 		if len(st.GetMoleFractions()) == 0 && def == nil {
@@ -337,10 +366,11 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 		}
 		fs := checkFlashState(&sv, f, st, n, def)
 		if err := sv.err(); err != nil {
-			items[i] = &fugadv1.FlashBatchItem{Status: statusProto(err)}
+			items[i].Status = statusProto(err)
 			continue
 		}
-		jobs[i] = s.newFlashJob(cf, f, fs, st.GetWarmStart(), req.GetOptions(), req.GetBypassCache())
+		jobs[i] = &jobMem[i]
+		s.fillFlashJob(jobs[i], cf, f, fs, st.GetWarmStart(), req.GetOptions(), req.GetBypassCache())
 	}
 
 	release, err := s.slot(ctx, "FlashBatch")
@@ -348,7 +378,7 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 		return nil, err
 	}
 	defer release()
-	s.runBatch(ctx, jobs, items)
+	s.runBatch(ctx, jobs, items, mem.results)
 	if err := ctx.Err(); err != nil {
 		return nil, ctxErr(err)
 	}
@@ -363,7 +393,7 @@ func (s *Server) FlashBatch(ctx context.Context, req *fugadv1.FlashBatchRequest)
 // gives its slot back and stops after the state it is solving once
 // admissions need the slot (solverPool.oversubscribed), so a batch holds
 // more than one slot only while no other call wants one.
-func (s *Server) runBatch(ctx context.Context, jobs []*flashJob, items []*fugadv1.FlashBatchItem) {
+func (s *Server) runBatch(ctx context.Context, jobs []*flashJob, items []*fugadv1.FlashBatchItem, results []fugadv1.FlashResult) {
 	pending := 0
 	for _, j := range jobs {
 		if j != nil {
@@ -383,7 +413,7 @@ func (s *Server) runBatch(ctx context.Context, jobs []*flashJob, items []*fugadv
 			return false
 		}
 		if jobs[i] != nil {
-			items[i] = s.batchItem(ctx, jobs[i])
+			s.batchItem(ctx, jobs[i], items[i], &results[i])
 		}
 		return true
 	}
@@ -407,24 +437,34 @@ func (s *Server) runBatch(ctx context.Context, jobs []*flashJob, items []*fugadv
 	wg.Wait()
 }
 
-// batchItem solves one state of a batch inside the batch's slots.
-func (s *Server) batchItem(ctx context.Context, job *flashJob) (item *fugadv1.FlashBatchItem) {
+// batchMemory is the memory of a batch's items and their results.
+type batchMemory struct {
+	items   []fugadv1.FlashBatchItem
+	results []fugadv1.FlashResult
+}
+
+// batchItem solves one state of a batch inside the batch's slots into
+// item (zero until now), with dst as the memory of a T–P result.
+func (s *Server) batchItem(ctx context.Context, job *flashJob, item *fugadv1.FlashBatchItem, dst *fugadv1.FlashResult) {
 	defer func() {
 		if p := recover(); p != nil {
-			item = &fugadv1.FlashBatchItem{Status: statusProto(s.panicked(fugadv1.FugadService_FlashBatch_FullMethodName, nil, p))}
+			item.Result = nil
+			item.Status = statusProto(s.panicked(fugadv1.FugadService_FlashBatch_FullMethodName, nil, p))
 		}
 	}()
 	if err := ctx.Err(); err != nil {
-		return &fugadv1.FlashBatchItem{Status: statusProto(ctxErr(err))}
+		item.Status = statusProto(ctxErr(err))
+		return
 	}
 	if s.solveHook != nil {
 		s.solveHook(ctx, "FlashBatch")
 	}
-	res, err := s.answerFlash(ctx, "FlashBatch", nil, job, false)
+	res, err := s.answerFlash(ctx, "FlashBatch", nil, job, false, dst)
 	if err != nil {
-		return &fugadv1.FlashBatchItem{Status: statusProto(err)}
+		item.Status = statusProto(err)
+		return
 	}
-	return &fugadv1.FlashBatchItem{Status: statusProto(nil), Result: res}
+	item.Status, item.Result = okStatus, res
 }
 
 // streamSession is the state a FlashStream carries between messages.
@@ -436,6 +476,10 @@ type streamSession struct {
 	// current fluid: the implicit estimate of the next message (see
 	// FlashStreamRequest.no_implicit_warm_start).
 	warm *fugadv1.WarmStart
+	// copies are the memory of warm when a solve of this stream produced
+	// it: one holds warm while the next message's solve writes the other.
+	copies [2]warmCopy
+	next   int
 }
 
 // FlashStream answers one flash per request message, in order. A message
@@ -454,7 +498,10 @@ func (s *Server) FlashStream(stream fugadv1.FugadService_FlashStreamServer) erro
 		req *fugadv1.FlashStreamRequest
 		err error
 	}
-	recv := make(chan received)
+	// One message of read-ahead: the next message is received and decoded
+	// while this one is solved. Its solver slot is still taken only when
+	// the loop below takes it up.
+	recv := make(chan received, 1)
 	go func() {
 		for {
 			req, err := stream.Recv()
@@ -564,12 +611,21 @@ func (s *Server) streamMessage(ctx context.Context, sess *streamSession, req *fu
 		warm = sess.warm
 	}
 	job := s.newFlashJob(sess.fluid, "state", fs, warm, sess.opts, req.GetBypassCache())
-	res, err := s.answerFlash(mctx, "FlashStream", req, job, true)
+	out := &sess.copies[sess.next]
+	out.set = false
+	job.warmOut = out
+	res, err := s.answerFlash(mctx, "FlashStream", req, job, true, nil)
 	if err != nil {
 		return nil, err
 	}
-	if w := resultWarmStart(res); w != nil {
-		sess.warm = w
+	switch {
+	case out.set:
+		sess.warm = &out.msg
+		sess.next = 1 - sess.next
+	default:
+		if w := resultWarmStart(res); w != nil {
+			sess.warm = w
+		}
 	}
 	return res, nil
 }

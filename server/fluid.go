@@ -87,20 +87,29 @@ type fluidCheck struct {
 func (s *Server) checkFluid(v *violations, prefix string, fl *fugadv1.Fluid) fluidCheck {
 	var fc fluidCheck
 	if fl != nil && (s.fluids != nil || s.results != nil) {
-		def, err := proto.MarshalOptions{Deterministic: true}.Marshal(fl)
+		// The encoding is built in a pooled buffer: on a compiled-fluid hit
+		// the compiled fluid carries its own copy, so nothing is allocated.
+		bp := defBuffers.Get().(*[]byte)
+		def, err := proto.MarshalOptions{Deterministic: true}.MarshalAppend((*bp)[:0], fl)
 		if err == nil {
-			fc.def = def
+			*bp = def
 			if s.fluids != nil {
 				if cf, ok := s.fluids.get(def); ok {
+					defBuffers.Put(bp)
 					fc.cf = cf
 					return fc
 				}
 			}
+			fc.def = append([]byte(nil), def...)
 		}
+		defBuffers.Put(bp)
 	}
 	fc.model, fc.comps, fc.opts = s.resolveFluid(v, prefix, fl)
 	return fc
 }
+
+// defBuffers pools the buffers checkFluid encodes fluids into.
+var defBuffers = sync.Pool{New: func() any { return new([]byte) }}
 
 // resolveFluid validates a Fluid and resolves its components. It records
 // every violation under prefix and returns the model, the components and

@@ -37,6 +37,7 @@ import (
 	"errors"
 	"runtime"
 	"sync/atomic"
+	"unicode/utf8"
 
 	"github.com/prometheus/client_golang/prometheus"
 	"go.uber.org/zap"
@@ -68,6 +69,10 @@ type Server struct {
 	results resultStore
 	// cacheVersion (data and model version) starts every cache key.
 	cacheVersion string
+	// directEncoding selects appendFlashResult for T–P answers: the
+	// version strings it writes are valid UTF-8, so its bytes are those
+	// of marshalAnswer (which would refuse invalid ones).
+	directEncoding bool
 
 	// solveHook, when set, runs inside every solver slot before the solve.
 	// Tests use it to hold slots and to inject panics.
@@ -103,6 +108,7 @@ func New(cfg Config, log *zap.Logger, reg prometheus.Registerer) (*Server, error
 	}
 	s.newGates()
 	s.cacheVersion = cfg.DataVersion + "/" + cfg.ModelVersion
+	s.directEncoding = utf8.ValidString(cfg.DataVersion) && utf8.ValidString(cfg.ModelVersion)
 	if !cfg.Cache.Disabled {
 		c, err := newCaches(cfg.Cache, s.cacheVersion, func(p any) error { return s.panicked("cache", nil, p) })
 		if err != nil {

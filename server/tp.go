@@ -94,8 +94,9 @@ func (s *Server) solveTP(ctx context.Context, job *flashJob) (*fugadv1.FlashResu
 
 // solveTPEncoded is solveTP for an answer that is sent or stored as bytes
 // (marshal once): the result is translated into the scratch's reused
-// message tree, which refers to the flash's own slices, encoded with
-// marshalAnswer into one new slice, and the solve is recorded in the
+// message tree, which refers to the flash's own slices, encoded
+// (appendFlashResult, the bytes of marshalAnswer) into the scratch's
+// buffer and copied into one new slice, and the solve is recorded in the
 // metrics (the duration without the encoding), all before the scratch
 // goes back to its pool. The bytes equal
 // marshalAnswer's encoding of solveTP's message.
@@ -123,12 +124,19 @@ func (s *Server) solveTPEncoded(ctx context.Context, job *flashJob) ([]byte, err
 		return nil, errInternal("the flash produced a non-finite number")
 	}
 	s.metrics.observeSolve(string(specTP), time.Since(start), &w.report.rep, len(res.Phases))
-	b, err := marshalAnswer.MarshalAppend(w.buf[:0], res)
-	if err != nil {
-		return nil, errInternal("encoding a flash result: " + err.Error())
+	if job.warmOut != nil {
+		job.warmOut.copyFrom(res.WarmStart)
 	}
-	w.buf = b[:0]
-	return append([]byte(nil), b...), nil
+	if s.directEncoding {
+		w.buf = appendFlashResult(w.buf[:0], res)
+	} else {
+		b, err := marshalAnswer.MarshalAppend(w.buf[:0], res)
+		if err != nil {
+			return nil, errInternal("encoding a flash result: " + err.Error())
+		}
+		w.buf = b
+	}
+	return append([]byte(nil), w.buf...), nil
 }
 
 // wireLabel maps a flash phase label to the wire enum.
@@ -484,4 +492,53 @@ func (s *Server) flashError(err error, job *flashJob) error {
 		return ctxErr(err)
 	}
 	return s.solverError(err, job.field)
+}
+
+// warmCopy is a WarmStart with memory of its own, copied from a result's
+// (copyFrom): the implicit warm start of a stream, which equals the
+// warm_start decoded from the answer's bytes without decoding them.
+type warmCopy struct {
+	msg    fugadv1.WarmStart
+	phases [flash.MaxPhases]fugadv1.PhaseEstimate
+	ptrs   [flash.MaxPhases]*fugadv1.PhaseEstimate
+	x      [flash.MaxPhases][]float64
+	kv     []float64
+	// set reports whether msg holds the warm start of the latest solve.
+	set bool
+}
+
+// copyFrom copies w (phases, K-values and the optional temperature and
+// pressure) into c's memory, reusing it, and sets c.set.
+func (c *warmCopy) copyFrom(w *fugadv1.WarmStart) {
+	m := min(len(w.GetPhases()), flash.MaxPhases)
+	c.msg = fugadv1.WarmStart{TemperatureK: w.TemperatureK, PressurePa: w.PressurePa}
+	if len(w.GetPhases()) > m {
+		c.set = false // not a result of the T–P flash; never the case
+		return
+	}
+	if kv := w.GetKValues(); len(kv) > 0 {
+		c.kv = append(c.kv[:0], kv...)
+		c.msg.KValues = c.kv
+	}
+	if m > 0 {
+		for k, p := range w.GetPhases()[:m] {
+			c.x[k] = append(c.x[k][:0], p.GetMoleFractions()...)
+			var x []float64
+			if len(c.x[k]) > 0 {
+				x = c.x[k]
+			}
+			c.phases[k] = fugadv1.PhaseEstimate{Label: p.GetLabel(), Amount: p.GetAmount(), MoleFractions: x}
+			c.ptrs[k] = &c.phases[k]
+		}
+		c.msg.Phases = c.ptrs[:m:m]
+	}
+	if c.msg.TemperatureK != nil {
+		t := *c.msg.TemperatureK
+		c.msg.TemperatureK = &t
+	}
+	if c.msg.PressurePa != nil {
+		p := *c.msg.PressurePa
+		c.msg.PressurePa = &p
+	}
+	c.set = true
 }

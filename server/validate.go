@@ -103,6 +103,9 @@ func checkID(v *violations, field, id string) {
 // per component, and the sum must be within sumTolerance (relative) of 1:
 // such a sum is normalised, any other is rejected.
 func composition(v *violations, field string, x []float64, n int) []float64 {
+	if out, ok := normalise(x, n); ok {
+		return out
+	}
 	if len(x) == 0 {
 		v.add(field, "required: one mole fraction per component (%d)", n)
 		return nil
@@ -141,6 +144,35 @@ func composition(v *violations, field string, x []float64, n int) []float64 {
 	}
 	return out
 }
+
+// normalise is composition's accepting path without its messages: x
+// normalised (the same sum in the same order, the same divisions) when
+// composition accepts it, else ok false. Callers on the hot path use it to
+// build the field path of a violation only when there is one.
+func normalise(x []float64, n int) (out []float64, ok bool) {
+	if len(x) != n || n == 0 {
+		return nil, false
+	}
+	sum := 0.0
+	for _, xi := range x {
+		if !(xi >= 0) || math.IsInf(xi, 1) {
+			return nil, false
+		}
+		sum += xi
+	}
+	if math.Abs(sum-1) > sumTolerance {
+		return nil, false
+	}
+	out = make([]float64, n)
+	for i, xi := range x {
+		out[i] = xi / sum
+	}
+	return out, true
+}
+
+// inRange reports whether x is finite and lo ≤ x ≤ hi: checkRange's
+// accepting case.
+func inRange(x, lo, hi float64) bool { return x >= lo && x <= hi && finite(x) }
 
 // solverOptions validates SolverOptions (nil is valid: all defaults).
 func solverOptions(v *violations, field string, o *fugadv1.SolverOptions) {
@@ -221,21 +253,28 @@ func checkFlashState(v *violations, field string, s *fugadv1.FlashState, n int, 
 		v.add(field, "required")
 		return out
 	}
+	// Field paths are built only for a violation: this runs for every
+	// state of every batch and stream.
 	if len(s.GetMoleFractions()) == 0 && def != nil {
 		out.x = def
+	} else if x, ok := normalise(s.GetMoleFractions(), n); ok {
+		out.x = x
 	} else {
 		out.x = composition(v, fieldPath(field, "mole_fractions"), s.GetMoleFractions(), n)
 	}
 	switch sp := s.GetSpecification().(type) {
 	case *fugadv1.FlashState_Tp:
 		out.spec = specTP
-		f := fieldPath(field, "tp")
 		if sp.Tp == nil {
-			v.add(f, "required")
+			v.add(fieldPath(field, "tp"), "required")
 			break
 		}
-		checkTemperature(v, fieldPath(f, "temperature_k"), sp.Tp.GetTemperatureK())
-		checkPressure(v, fieldPath(f, "pressure_pa"), sp.Tp.GetPressurePa())
+		if T := sp.Tp.GetTemperatureK(); !inRange(T, minTemperatureK, maxTemperatureK) {
+			checkTemperature(v, fieldPath(field, "tp", "temperature_k"), T)
+		}
+		if P := sp.Tp.GetPressurePa(); !inRange(P, minPressurePa, maxPressurePa) {
+			checkPressure(v, fieldPath(field, "tp", "pressure_pa"), P)
+		}
 	case *fugadv1.FlashState_Ph:
 		out.spec = specPH
 		f := fieldPath(field, "ph")
@@ -269,7 +308,9 @@ func checkFlashState(v *violations, field string, s *fugadv1.FlashState, n int, 
 	default:
 		v.add(fieldPath(field, "specification"), "required: one of tp, ph, ps, tv, uv, p_vapour_fraction, t_vapour_fraction")
 	}
-	warmStart(v, fieldPath(field, "warm_start"), s.GetWarmStart(), n)
+	if w := s.GetWarmStart(); w != nil {
+		warmStart(v, fieldPath(field, "warm_start"), w, n)
+	}
 	return out
 }
 
