@@ -32,7 +32,7 @@ const (
 
 	phLabel, phAmount, phMoleFractions, phLnPhi, phProperties protowire.Number = 1, 2, 3, 4, 5
 
-	wsKValues, wsPhases, wsTemperature, wsPressure protowire.Number = 1, 2, 3, 4
+	wsKValues, wsPhases, wsTemperature, wsPressure, wsLnKDT, wsLnKDP protowire.Number = 1, 2, 3, 4, 5, 6
 
 	peLabel, peAmount, peMoleFractions protowire.Number = 1, 2, 3
 
@@ -206,7 +206,8 @@ func appendPhaseEstimate(b []byte, e *fugadv1.PhaseEstimate) []byte {
 }
 
 func sizeWarmStart(w *fugadv1.WarmStart) int {
-	n := sizeDoubles(w.KValues) + sizeOptDouble(w.TemperatureK) + sizeOptDouble(w.PressurePa)
+	n := sizeDoubles(w.KValues) + sizeOptDouble(w.TemperatureK) + sizeOptDouble(w.PressurePa) +
+		sizeDoubles(w.LnKTemperatureSensitivityPerK) + sizeDoubles(w.LnKPressureSensitivityPerPa)
 	for _, e := range w.Phases {
 		n += sizeSub(sizePhaseEstimate(e))
 	}
@@ -220,7 +221,9 @@ func appendWarmStart(b []byte, w *fugadv1.WarmStart) []byte {
 		b = appendPhaseEstimate(b, e)
 	}
 	b = appendOptDouble(b, wsTemperature, w.TemperatureK)
-	return appendOptDouble(b, wsPressure, w.PressurePa)
+	b = appendOptDouble(b, wsPressure, w.PressurePa)
+	b = appendDoubles(b, wsLnKDT, w.LnKTemperatureSensitivityPerK)
+	return appendDoubles(b, wsLnKDP, w.LnKPressureSensitivityPerPa)
 }
 
 func sizeStage(s *fugadv1.StageReport) int {

@@ -118,7 +118,7 @@ func TestAppendFlashResultMatchesMarshal(t *testing.T) {
 			m.Phases = append(m.Phases, &fugadv1.Phase{Label: fugadv1.PhaseLabel(rng.IntN(4)), Amount: num(), MoleFractions: nums(), LnFugacityCoefficients: nums(), Properties: props()})
 		}
 		if rng.IntN(4) > 0 {
-			w := &fugadv1.WarmStart{KValues: nums(), TemperatureK: opt(), PressurePa: opt()}
+			w := &fugadv1.WarmStart{KValues: nums(), TemperatureK: opt(), PressurePa: opt(), LnKTemperatureSensitivityPerK: nums(), LnKPressureSensitivityPerPa: nums()}
 			for range rng.IntN(4) {
 				w.Phases = append(w.Phases, &fugadv1.PhaseEstimate{Label: fugadv1.PhaseLabel(rng.IntN(4)), Amount: num(), MoleFractions: nums()})
 			}

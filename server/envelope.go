@@ -52,7 +52,10 @@ func appendOptions(kb *cache.KeyBuilder, o *fugadv1.SolverOptions) {
 	kb.AppendUint64(uint64(o.GetMaxIterations()))
 }
 
-// appendWarm appends a warm start's content to a key.
+// appendWarm appends a warm start's content to a key: every field, the
+// ln K sensitivities included (they move the answer only within the
+// solver tolerance, but the server answers the same request with the same
+// bytes, so a request with other sensitivities is another request).
 func appendWarm(kb *cache.KeyBuilder, w *fugadv1.WarmStart) {
 	kb.AppendBool(w != nil)
 	if w == nil {
@@ -69,6 +72,8 @@ func appendWarm(kb *cache.KeyBuilder, w *fugadv1.WarmStart) {
 	kb.AppendFloat64(w.GetTemperatureK())
 	kb.AppendBool(w.PressurePa != nil)
 	kb.AppendFloat64(w.GetPressurePa())
+	kb.AppendFloat64s(w.GetLnKTemperatureSensitivityPerK())
+	kb.AppendFloat64s(w.GetLnKPressureSensitivityPerPa())
 }
 
 // saturationBranch maps the wire enum; ok is false for unknown values.

@@ -104,7 +104,12 @@ func TestSaturationPointMatchesThermo(t *testing.T) {
 		// library gets the same hint.
 		next := proto.Clone(tc.req).(*fugadv1.SaturationPointRequest)
 		next.WarmStart = got.GetWarmStart()
-		h := envelope.Hint{Branch: tc.branch, LnK: append([]float64(nil), pt.LnK...)}
+		// The wire carries K-values, so the server starts from ln(exp(ln K)).
+		lnK := make([]float64, len(pt.LnK))
+		for i, v := range pt.LnK {
+			lnK[i] = math.Log(math.Exp(v))
+		}
+		h := envelope.Hint{Branch: tc.branch, LnK: lnK}
 		var lib func() error
 		if st, ok := next.GetSpecified().(*fugadv1.SaturationPointRequest_TemperatureK); ok {
 			st.TemperatureK -= 1

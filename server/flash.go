@@ -100,6 +100,8 @@ func (s *Server) fillFlashJob(job *flashJob, cf *compiledFluid, field string, st
 			if warm.PressurePa != nil {
 				w.PressurePa = proto.Float64(cache.Quantize(warm.GetPressurePa(), q))
 			}
+			w.LnKTemperatureSensitivityPerK = quantizeAll(warm.GetLnKTemperatureSensitivityPerK(), q)
+			w.LnKPressureSensitivityPerPa = quantizeAll(warm.GetLnKPressureSensitivityPerPa(), q)
 			job.warm = w
 		}
 	}
@@ -128,21 +130,7 @@ func (s *Server) flashKey(job *flashJob) *cache.KeyBuilder {
 	kb.AppendFloat64s(job.x)
 	kb.AppendFloat64(job.opts.GetTolerance())
 	kb.AppendUint64(uint64(job.opts.GetMaxIterations()))
-	w := job.warm
-	kb.AppendBool(w != nil)
-	if w != nil {
-		kb.AppendFloat64s(w.GetKValues())
-		kb.AppendUint64(uint64(len(w.GetPhases())))
-		for _, p := range w.GetPhases() {
-			kb.AppendInt64(int64(p.GetLabel()))
-			kb.AppendFloat64(p.GetAmount())
-			kb.AppendFloat64s(p.GetMoleFractions())
-		}
-		kb.AppendBool(w.TemperatureK != nil)
-		kb.AppendFloat64(w.GetTemperatureK())
-		kb.AppendBool(w.PressurePa != nil)
-		kb.AppendFloat64(w.GetPressurePa())
-	}
+	appendWarm(kb, job.warm)
 	kb.AppendFloat64(job.quant)
 	return kb
 }

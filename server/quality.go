@@ -81,8 +81,7 @@ func (s *Server) solveQuality(ctx context.Context, job *flashJob) (*fugadv1.Flas
 	if err != nil {
 		return nil, err
 	}
-	out.WarmStart.TemperatureK, out.WarmStart.PressurePa = proto.Float64(pt.T), proto.Float64(pt.P)
-	out.WarmStart.KValues = out.GetKValues()
+	out.WarmStart.KValues = out.GetKValues() // T and P are set by the translation
 	return out, nil
 }
 

@@ -7,8 +7,6 @@ import (
 	"math"
 	"strings"
 
-	"google.golang.org/protobuf/proto"
-
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
 	"github.com/fugad/fugad/thermo/flash"
 	"github.com/fugad/fugad/thermo/stateflash"
@@ -38,9 +36,11 @@ func stateOptions(o *fugadv1.SolverOptions) stateflash.Options {
 
 // solveState is the translation of a P–H, P–S, T–V or U–V flash onto
 // stateflash.Workspace: the job's two specified values, composition,
-// options and warm start (temperature_k, pressure_pa and the phase split
-// or K-values) in, a FlashResult out, whose warm_start carries the solved
-// temperature and pressure besides the phases. Errors: see stateError.
+// options and warm start (temperature_k, pressure_pa, the phase split or
+// K-values and the ln K sensitivities, which hold at that temperature and
+// pressure) in, a FlashResult out, whose warm_start carries the solved
+// temperature and pressure besides the phases, and the inner split's ln K
+// sensitivities for two phases. Errors: see stateError.
 func (s *Server) solveState(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
 	cf := job.fluid
 	sc := getSolverScratch(cf)
@@ -80,7 +80,17 @@ func (s *Server) solveState(ctx context.Context, job *flashJob) (*fugadv1.FlashR
 	if out == nil {
 		return nil, errInternal("the state-function flash produced a non-finite number")
 	}
-	out.WarmStart.TemperatureK, out.WarmStart.PressurePa = proto.Float64(res.T), proto.Float64(res.P)
+	// The inner split's sensitivities are not in fr (they are unexported
+	// state of the flash result): they come from the state-function
+	// result's own estimate, whose inner state is (res.T, res.P), the
+	// warm start's temperature_k and pressure_pa.
+	if e := res.Estimate(); len(res.Phases) == 2 && sendableSensitivities(e.Flash.DLnKDT, e.Flash.DLnKDP, len(res.Z)) {
+		n := len(res.Z)
+		buf := make([]float64, 2*n)
+		copy(buf, e.Flash.DLnKDT)
+		copy(buf[n:], e.Flash.DLnKDP)
+		out.WarmStart.LnKTemperatureSensitivityPerK, out.WarmStart.LnKPressureSensitivityPerPa = buf[:n:n], buf[n:]
+	}
 	return out, nil
 }
 
@@ -133,6 +143,8 @@ var commonFields = map[string]string{
 	"warm.Beta":             "warm_start.phases",
 	"warm.LnK":              "warm_start.k_values",
 	"warm.Phases":           "warm_start.phases",
+	"warm.DLnKDT":           "warm_start.ln_k_temperature_sensitivity_per_k",
+	"warm.DLnKDP":           "warm_start.ln_k_pressure_sensitivity_per_pa",
 	"Hint.Start":            "warm_start",
 	"Hint.LnK":              "warm_start.k_values",
 	"Options.Tolerance":     "options.tolerance",

@@ -35,9 +35,12 @@ func newFlashScratch(mx *eos.Mixture) *flashScratch {
 
 // estimate translates a validated wire warm start into a flash.Estimate in
 // sc's buffers: phases (amounts and compositions) when given, else the
-// K-values as a two-phase estimate; nil when w carries neither. The
-// compositions are referenced, not copied (the flash copies its estimate
-// before it writes anything).
+// K-values as a two-phase estimate; nil when w carries neither. The state
+// the estimate describes (temperature_k, pressure_pa; zero when absent)
+// and the ln K sensitivities (nil when absent) go with it, so that the
+// flash shifts ln K to its own state as it would from the library's
+// Result.Estimate. Compositions and sensitivities are referenced, not
+// copied (the flash copies its estimate before it writes anything).
 func (sc *flashScratch) estimate(w *fugadv1.WarmStart) *flash.Estimate {
 	if ph := w.GetPhases(); len(ph) > 0 {
 		k := min(len(ph), flash.MaxPhases)
@@ -46,16 +49,49 @@ func (sc *flashScratch) estimate(w *fugadv1.WarmStart) *flash.Estimate {
 			sc.beta[j] = ph[j].GetAmount()
 		}
 		sc.est = flash.Estimate{Phases: k, Beta: sc.beta[:k], X: sc.x[:k]}
-		return &sc.est
-	}
-	if kv := w.GetKValues(); len(kv) > 0 && len(kv) == len(sc.lnK) {
+	} else if kv := w.GetKValues(); len(kv) > 0 && len(kv) == len(sc.lnK) {
 		for i, ki := range kv {
 			sc.lnK[i] = math.Log(ki)
 		}
 		sc.est = flash.Estimate{Phases: 2, LnK: sc.lnK}
-		return &sc.est
+	} else {
+		return nil
 	}
-	return nil
+	sc.est.T, sc.est.P = w.GetTemperatureK(), w.GetPressurePa()
+	n := len(sc.lnK)
+	if dT, dP := w.GetLnKTemperatureSensitivityPerK(), w.GetLnKPressureSensitivityPerPa(); len(dT) == n && len(dP) == n {
+		sc.est.DLnKDT, sc.est.DLnKDP = dT, dP
+	}
+	return &sc.est
+}
+
+// Bounds of the ln K sensitivities a warm start may carry: d ln K/dT of a
+// real split is of order 0.01–1 1/K and d ln K/dP of order 1/P (at most
+// 1e3 1/Pa at the smallest accepted pressure), growing only very near a
+// critical point, where the flash limits the shift anyway. A larger
+// magnitude can only be garbage; results whose sensitivities exceed the
+// bounds are sent without them, so that a warm start copied back
+// unchanged is always accepted.
+const (
+	maxLnKTemperatureSensitivity = 1e4 // 1/K
+	maxLnKPressureSensitivity    = 1e4 // 1/Pa
+)
+
+// sendableSensitivities reports whether the ln K sensitivities dT and dP
+// of an n-component split go into a result's warm start: both present,
+// one per component, finite and within the bounds the validation of a
+// warm start accepts.
+func sendableSensitivities(dT, dP []float64, n int) bool {
+	if len(dT) != n || len(dP) != n || n == 0 {
+		return false
+	}
+	for i := range n {
+		if !inRange(dT[i], -maxLnKTemperatureSensitivity, maxLnKTemperatureSensitivity) ||
+			!inRange(dP[i], -maxLnKPressureSensitivity, maxLnKPressureSensitivity) {
+			return false
+		}
+	}
+	return true
 }
 
 // flashOptions maps the wire solver options onto the T–P flash's; zero
@@ -289,23 +325,36 @@ type wireTP struct {
 	est      [flash.MaxPhases]fugadv1.PhaseEstimate
 	estPtr   [flash.MaxPhases]*fugadv1.PhaseEstimate
 	warm     fugadv1.WarmStart
+	warmT    float64 // the warm start's temperature_k
+	warmP    float64 // the warm start's pressure_pa
 	report   wireReport
 	kv       []float64 // K-values, reused
 	buf      []byte    // encodings, reused
 }
 
 // fill translates r into w's message (see flashResult) and returns it, or
-// nil when a number is not finite. With own the float slices are copied
-// (one allocation); without, they refer to r's, so the message is valid
-// only while r is not reused: for encoding at once.
+// nil when a number is not finite. The warm start carries the phases, T
+// and P, and the ln K sensitivities of a two-phase result that has them
+// (Result.Estimate; see sendableSensitivities). With own the float slices
+// are copied (one allocation); without, they refer to r's, so the message
+// is valid only while r is not reused: for encoding at once.
 func (w *wireTP) fill(r *flash.Result, rep *fugadv1.SolverReport, props, own bool) *fugadv1.FlashResult {
 	m, n := len(r.Phases), len(r.Z)
 	multi := m >= 2
+	var dT, dP []float64
+	if m == 2 {
+		if e := r.Estimate(); sendableSensitivities(e.DLnKDT, e.DLnKDP, n) {
+			dT, dP = e.DLnKDT, e.DLnKDP
+		}
+	}
 	var fbuf []float64
 	if own {
 		floats := 2 * m * n // compositions and ln φ
 		if multi {
 			floats += n // K-values
+		}
+		if dT != nil {
+			floats += 2 * n // sensitivities
 		}
 		fbuf = make([]float64, 0, floats)
 	}
@@ -320,7 +369,11 @@ func (w *wireTP) fill(r *flash.Result, rep *fugadv1.SolverReport, props, own boo
 	w.out = fugadv1.FlashResult{TemperatureK: r.T, PressurePa: r.P, Report: rep}
 	out := &w.out
 	out.Phases = w.phasePtr[:m:m]
-	w.warm = fugadv1.WarmStart{Phases: w.estPtr[:m:m]}
+	w.warmT, w.warmP = r.T, r.P
+	w.warm = fugadv1.WarmStart{Phases: w.estPtr[:m:m], TemperatureK: &w.warmT, PressurePa: &w.warmP}
+	if dT != nil {
+		w.warm.LnKTemperatureSensitivityPerK, w.warm.LnKPressureSensitivityPerPa = take(dT), take(dP)
+	}
 	ok := true
 	for k := range r.Phases {
 		p := &r.Phases[k]
@@ -457,6 +510,10 @@ var flashFields = map[string]string{
 	"warm.Beta":          "warm_start.phases",
 	"warm.LnK":           "warm_start.k_values",
 	"warm.Phases":        "warm_start.phases",
+	"warm.T":             "warm_start.temperature_k",
+	"warm.P":             "warm_start.pressure_pa",
+	"warm.DLnKDT":        "warm_start.ln_k_temperature_sensitivity_per_k",
+	"warm.DLnKDP":        "warm_start.ln_k_pressure_sensitivity_per_pa",
 	"opts.Tolerance":     "options.tolerance",
 	"opts.MaxIterations": "options.max_iterations",
 }
@@ -503,12 +560,14 @@ type warmCopy struct {
 	ptrs   [flash.MaxPhases]*fugadv1.PhaseEstimate
 	x      [flash.MaxPhases][]float64
 	kv     []float64
+	dT, dP []float64 // ln K sensitivities
 	// set reports whether msg holds the warm start of the latest solve.
 	set bool
 }
 
-// copyFrom copies w (phases, K-values and the optional temperature and
-// pressure) into c's memory, reusing it, and sets c.set.
+// copyFrom copies w (phases, K-values, the optional temperature and
+// pressure and the ln K sensitivities) into c's memory, reusing it, and
+// sets c.set.
 func (c *warmCopy) copyFrom(w *fugadv1.WarmStart) {
 	m := min(len(w.GetPhases()), flash.MaxPhases)
 	c.msg = fugadv1.WarmStart{TemperatureK: w.TemperatureK, PressurePa: w.PressurePa}
@@ -519,6 +578,14 @@ func (c *warmCopy) copyFrom(w *fugadv1.WarmStart) {
 	if kv := w.GetKValues(); len(kv) > 0 {
 		c.kv = append(c.kv[:0], kv...)
 		c.msg.KValues = c.kv
+	}
+	if d := w.GetLnKTemperatureSensitivityPerK(); len(d) > 0 {
+		c.dT = append(c.dT[:0], d...)
+		c.msg.LnKTemperatureSensitivityPerK = c.dT
+	}
+	if d := w.GetLnKPressureSensitivityPerPa(); len(d) > 0 {
+		c.dP = append(c.dP[:0], d...)
+		c.msg.LnKPressureSensitivityPerPa = c.dP
 	}
 	if m > 0 {
 		for k, p := range w.GetPhases()[:m] {

@@ -220,6 +220,25 @@ func warmStart(v *violations, field string, w *fugadv1.WarmStart, n int) {
 	if w.PressurePa != nil {
 		checkPressure(v, fieldPath(field, "pressure_pa"), w.GetPressurePa())
 	}
+	lnKSensitivity(v, fieldPath(field, "ln_k_temperature_sensitivity_per_k"), w.GetLnKTemperatureSensitivityPerK(), n, maxLnKTemperatureSensitivity, "1/K")
+	lnKSensitivity(v, fieldPath(field, "ln_k_pressure_sensitivity_per_pa"), w.GetLnKPressureSensitivityPerPa(), n, maxLnKPressureSensitivity, "1/Pa")
+}
+
+// lnKSensitivity validates a warm start's ln K sensitivities: empty, or
+// one finite value per component of magnitude at most bound.
+func lnKSensitivity(v *violations, field string, d []float64, n int, bound float64, unit string) {
+	if len(d) == 0 {
+		return
+	}
+	if len(d) != n {
+		v.add(field, "has %d entries, the fluid has %d components", len(d), n)
+		return
+	}
+	for i, di := range d {
+		if !inRange(di, -bound, bound) {
+			checkRange(v, index(field, i), di, -bound, bound, unit)
+		}
+	}
 }
 
 // specKind names a flash specification for metrics and logs.

@@ -69,6 +69,12 @@ type Fugacity struct {
 	V      float64 // molar volume, m³/mol (translated)
 	Branch Branch
 	Roots  int // number of real roots above B (1 or 3)
+
+	// last is the kernel state of the evaluation that filled f, kept when
+	// it was a trusted one with WantT (lastMx its mixture, nil otherwise),
+	// for PropertiesFromFugacity.
+	last   state
+	lastMx *Mixture
 }
 
 // NewFugacity returns a Fugacity sized for mx.
@@ -102,10 +108,11 @@ func (mx *Mixture) Fugacity(ws *Workspace, T, P float64, x []float64, root RootC
 		return &InputError{Field: "out", Value: float64(len(out.LnPhi)), Reason: "Fugacity not sized for this mixture (use NewFugacity)"}
 	}
 	ws.setT(T)
-	mx.composition(ws, x, want&WantT != 0, true)
+	mx.composition(ws, x, want&WantT != 0, false, true)
 	mx.solveZ(ws, T, P, root)
 	mx.residual(ws, false)
 	mx.lnPhi(ws, want, out)
+	out.lastMx = nil
 	return nil
 }
 
@@ -120,20 +127,51 @@ func (mx *Mixture) Fugacity(ws *Workspace, T, P float64, x []float64, root RootC
 // nothing.
 func (mx *Mixture) FugacityTrusted(ws *Workspace, T, P float64, x []float64, root RootChoice, want Want, out *Fugacity) {
 	ws.setT(T)
-	mx.composition(ws, x, want&WantT != 0, false)
+	mx.composition(ws, x, want&WantT != 0, false, false)
 	mx.solveZ(ws, T, P, root)
 	mx.residual(ws, false)
 	mx.lnPhi(ws, want, out)
+	if want&WantT != 0 {
+		out.last, out.lastMx = ws.st, mx
+	} else {
+		out.lastMx = nil
+	}
 }
 
 // PropertiesTrusted is Properties without the checks, under the
 // conditions of FugacityTrusted.
 func (mx *Mixture) PropertiesTrusted(ws *Workspace, T, P float64, x []float64, root RootChoice) Properties {
 	ws.setT(T)
-	mx.composition(ws, x, true, false)
+	mx.composition(ws, x, true, true, false)
 	mx.solveZ(ws, T, P, root)
 	mx.residual(ws, false)
 	return mx.props(ws)
+}
+
+// PropertiesFromFugacity returns the properties of the phase whose ln φ
+// the last evaluation into f computed, reusing that evaluation's mixing
+// sums, root and residual Helmholtz derivatives instead of solving the
+// state again: the evaluation must have been FugacityTrusted with WantT,
+// on mx, at T and P, of composition x (the same slice values), and ws
+// must be mx's workspace. It reports false, computing nothing, when f
+// holds no such state (another mixture, state, or no WantT); otherwise
+// the result is PropertiesTrusted's for that root, bit for bit. It
+// allocates nothing.
+func (mx *Mixture) PropertiesFromFugacity(ws *Workspace, T, P float64, x []float64, f *Fugacity) (Properties, bool) {
+	if f == nil || f.lastMx != mx || ws == nil || ws.mx != mx || f.last.T != T || f.last.P != P {
+		return Properties{}, false
+	}
+	ws.setT(T)
+	ws.st = f.last
+	n := mx.n
+	copy(ws.x[:n], x[:n])
+	st := &ws.st
+	if !st.hasTT {
+		st.DTT = quadForm(ws.aijTT, ws.x[:n])
+		st.hasTT = true
+		st.setFTT()
+	}
+	return mx.props(ws), true
 }
 
 // Temperatures and pressures an evaluation accepts. They lie far outside
@@ -217,9 +255,11 @@ func itoa(i int) string {
 //
 //	D = Σ_ij x_i x_j a_ij,  D_i = 2Σ_j x_j a_ij,  B = Σ_i x_i b_i,
 //
-// and, with withT, their temperature derivatives. With norm false x is
-// taken as mole fractions as they are (the trusted entry points).
-func (mx *Mixture) composition(ws *Workspace, x []float64, withT, norm bool) {
+// and, with withT, the temperature derivatives D_T and D_iT (ln φ and its
+// T derivative need no more) and, with withTT as well, D_TT (for heat
+// capacities). With norm false x is taken as mole fractions as they are
+// (the trusted entry points).
+func (mx *Mixture) composition(ws *Workspace, x []float64, withT, withTT, norm bool) {
 	n := mx.n
 	st := &ws.st
 	xs := ws.x[:n]
@@ -242,13 +282,33 @@ func (mx *Mixture) composition(ws *Workspace, x []float64, withT, norm bool) {
 		mw += xi * w[i]
 	}
 	st.D = symQuad(ws.aij, xs, ws.di[:n])
+	st.DT, st.DTT, st.hasTT = 0, 0, false
 	if withT {
 		st.DT = symQuad(ws.aijT, xs, ws.diT[:n])
-		st.DTT = symQuad(ws.aijTT, xs, ws.diTT[:n])
-	} else {
-		st.DT, st.DTT = 0, 0
+		if withTT {
+			st.DTT = quadForm(ws.aijTT, xs)
+			st.hasTT = true
+		}
 	}
 	st.Bm, st.cshift, st.mw = bm, cs, mw
+}
+
+// quadForm returns Σ_ij x_i a_ij x_j for the symmetric n×n row-major
+// matrix a from its lower triangle, Σ_i x_i (a_ii x_i + 2Σ_{j<i} a_ij x_j),
+// in a fixed order.
+func quadForm(a, x []float64) float64 {
+	n := len(x)
+	a = a[:n*n]
+	q := 0.0
+	for i, xi := range x {
+		row := a[i*n:][:i+1]
+		s := 0.0
+		for j, v := range row[:i] {
+			s += v * x[j]
+		}
+		q += xi * (row[i]*xi + 2*s)
+	}
+	return q
 }
 
 // symQuad sets d_i = 2Σ_j a_ij x_j for the n×n row-major matrix a and
@@ -369,7 +429,7 @@ func (mx *Mixture) residual(ws *Workspace, tv bool) {
 	st.g, st.f, st.fV, st.fB = g, f, fV, fB
 	st.F = -g - D/T*f
 	st.FT = f / (T * T) * (D - T*st.DT)
-	st.FTT = -2*D*f/(T*T*T) + 2*f*st.DT/(T*T) - f*st.DTT/T
+	st.setFTT()
 	FV := -gV - D/T*fV
 	FVV := -gVV - D/T*fVV
 	FVT := D*fV/(T*T) - fV/T*st.DT
@@ -382,6 +442,13 @@ func (mx *Mixture) residual(ws *Workspace, tv bool) {
 	}
 	st.dPdV = -rt*FVV - rt/(V*V)
 	st.dPdT = st.P/T - rt*FVT
+}
+
+// setFTT sets F_TT = ∂²F/∂T² at fixed V, n from f, D, D_T and D_TT
+// (meaningful only with hasTT).
+func (st *state) setFTT() {
+	T, D, f := st.T, st.D, st.f
+	st.FTT = -2*D*f/(T*T*T) + 2*f*st.DT/(T*T) - f*st.DTT/T
 }
 
 // lnPhi fills out from the last residual evaluation.
@@ -401,11 +468,17 @@ func (mx *Mixture) lnPhi(ws *Workspace, want Want, out *Fugacity) {
 	lnZ := math.Log(st.Z)
 	shift := mx.shift
 	pOverRT := P / rt
-	for i := range n {
-		out.LnPhi[i] = -st.g + FB*mx.b[i] + FD*ws.di[i] - lnZ
+	// Slices and constants in locals: the stores into out would otherwise
+	// make the compiler reload them every component.
+	b, di, cc := mx.b[:n], ws.di[:n], mx.c[:n]
+	lp := out.LnPhi[:n]
+	c0 := -st.g - lnZ
+	for i := range lp {
+		v := c0 + FB*b[i] + FD*di[i]
 		if shift {
-			out.LnPhi[i] -= mx.c[i] * pOverRT
+			v -= cc[i] * pOverRT
 		}
+		lp[i] = v
 	}
 	out.Roots = st.roots
 	out.Branch = st.branch
@@ -429,18 +502,19 @@ func (mx *Mixture) lnPhi(ws *Workspace, want Want, out *Fugacity) {
 	FBD := -fB / T
 	dPdV := st.dPdV
 	// ∂P/∂n_i = −RT·F_Vi + RT/V with F_Vi = F_nV + F_BV·b_i + F_DV·D_i.
-	for i := range n {
-		FVi := FnV + FBV*mx.b[i] + FDV*ws.di[i]
-		ws.pn[i] = -rt*FVi + rt/V
+	pn := ws.pn[:n]
+	rtV := rt / V
+	for i := range pn {
+		FVi := FnV + FBV*b[i] + FDV*di[i]
+		pn[i] = -rt*FVi + rtV
 	}
 	if want&WantN != 0 {
 		// n·F_ij + 1 = e_i + e_j + b_i c_j + b_j c_i + 2F_D a_ij with
 		// e_i = F_nB b_i + ½ and c_i = F_BD D_i + ½F_BB b_i.
 		e, c := ws.dne[:n], ws.dnc[:n]
-		b, pn := mx.b[:n], ws.pn[:n]
-		for i := range n {
+		for i := range e {
 			e[i] = FnB*b[i] + 0.5
-			c[i] = FBD*ws.di[i] + 0.5*FBB*b[i]
+			c[i] = FBD*di[i] + 0.5*FBB*b[i]
 		}
 		fd2 := 2 * FD
 		inv := 1 / (rt * dPdV)
@@ -461,22 +535,25 @@ func (mx *Mixture) lnPhi(ws *Workspace, want Want, out *Fugacity) {
 		FDT := f / (T * T)
 		DT := st.DT
 		dPdT := st.dPdT
-		for i := range n {
-			vbar := -ws.pn[i] / dPdV
+		dp, dt, diT := out.DP[:n], out.DT[:n], ws.diT[:n]
+		cb := FBT + FBD*DT
+		iT, iP := 1/T, 1/P
+		for i, p := range pn {
+			vbar := -p / dPdV
 			if want&WantP != 0 {
-				d := vbar/rt - 1/P
+				d := vbar/rt - iP
 				if shift {
-					d -= mx.c[i] / rt
+					d -= cc[i] / rt
 				}
-				out.DP[i] = d
+				dp[i] = d
 			}
 			if want&WantT != 0 {
-				FiT := (FBT+FBD*DT)*mx.b[i] + FDT*ws.di[i] + FD*ws.diT[i]
-				d := FiT + 1/T - vbar*dPdT/rt
+				FiT := cb*b[i] + FDT*di[i] + FD*diT[i]
+				d := FiT + iT - vbar*dPdT/rt
 				if shift {
-					d += mx.c[i] * P / (rt * T)
+					d += cc[i] * P / (rt * T)
 				}
-				out.DT[i] = d
+				dt[i] = d
 			}
 		}
 	}

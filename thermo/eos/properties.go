@@ -50,7 +50,7 @@ func (mx *Mixture) Properties(ws *Workspace, T, P float64, x []float64, root Roo
 		return Properties{}, err
 	}
 	ws.setT(T)
-	mx.composition(ws, x, true, true)
+	mx.composition(ws, x, true, true, true)
 	mx.solveZ(ws, T, P, root)
 	mx.residual(ws, false)
 	return mx.props(ws), nil
@@ -111,7 +111,7 @@ func (mx *Mixture) checkTVX(ws *Workspace, T, v float64, x []float64) error {
 		return err
 	}
 	ws.setT(T)
-	mx.composition(ws, x, true, true)
+	mx.composition(ws, x, true, true, true)
 	st := &ws.st
 	ve := v + st.cshift
 	if !(ve > st.Bm) {

@@ -49,6 +49,7 @@ func (mx *Mixture) VapourPressure(ws *Workspace, i int, T float64) (Saturation, 
 	// Pure-component mixing sums (composition e_i).
 	st := &ws.st
 	st.D, st.DT, st.DTT = ws.aij[i*mx.n+i], ws.aijT[i*mx.n+i], ws.aijTT[i*mx.n+i]
+	st.hasTT = true
 	st.Bm, st.cshift, st.mw = mx.b[i], mx.c[i], mx.mw[i]
 	d1, d2 := mx.p.d1, mx.p.d2
 	rt := R * T

@@ -60,3 +60,51 @@ func TestTrustedMatchesChecked(t *testing.T) {
 		t.Fatal(err)
 	}
 }
+
+// TestPropertiesFromFugacity checks that the properties rebuilt from the
+// last trusted evaluation with WantT are PropertiesTrusted's bit for bit
+// (the same root and sums, so every field identical), with and without
+// the composition derivatives and with another state evaluated on the
+// workspace in between, and that it declines a Fugacity without that
+// state: no WantT, a checked evaluation, another T or P, another mixture.
+func TestPropertiesFromFugacity(t *testing.T) {
+	mx := mixture(t, PR78, Options{VolumeTranslation: true}, "nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "n-butane", "n-hexane")
+	other := mixture(t, SRK, Options{}, "nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "n-butane", "n-hexane")
+	x := []float64{0.02, 0.03, 0.6, 0.1, 0.1, 0.1, 0.05}
+	y := []float64{0.001, 0.01, 0.2, 0.1, 0.2, 0.3, 0.189}
+	ws, f, g := mx.NewWorkspace(), mx.NewFugacity(), mx.NewFugacity()
+	for _, st := range []struct{ T, P float64 }{{250, 5e6}, {200, 1e6}, {350, 2e7}, {160, 3e6}} {
+		for _, root := range []RootChoice{RootMinGibbs, RootVapour, RootLiquid} {
+			for _, want := range []Want{WantT, WantT | WantP, WantAll} {
+				mx.FugacityTrusted(ws, st.T, st.P, x, root, want, f)
+				mx.FugacityTrusted(ws, st.T, st.P, y, root, WantN, g)
+				got, ok := mx.PropertiesFromFugacity(ws, st.T, st.P, x, f)
+				if !ok {
+					t.Fatalf("T %g P %g root %v want %v: declined", st.T, st.P, root, want)
+				}
+				if ref := mx.PropertiesTrusted(ws, st.T, st.P, x, root); got != ref {
+					t.Fatalf("T %g P %g root %v want %v:\n%+v\n%+v", st.T, st.P, root, want, got, ref)
+				}
+			}
+		}
+	}
+	mx.FugacityTrusted(ws, 250, 5e6, x, RootMinGibbs, WantP|WantN, f)
+	if _, ok := mx.PropertiesFromFugacity(ws, 250, 5e6, x, f); ok {
+		t.Fatal("accepted an evaluation without WantT")
+	}
+	if err := mx.Fugacity(ws, 250, 5e6, x, RootMinGibbs, WantAll, f); err != nil {
+		t.Fatal(err)
+	}
+	if _, ok := mx.PropertiesFromFugacity(ws, 250, 5e6, x, f); ok {
+		t.Fatal("accepted a checked evaluation")
+	}
+	mx.FugacityTrusted(ws, 250, 5e6, x, RootMinGibbs, WantT, f)
+	for _, s := range []struct{ T, P float64 }{{250.1, 5e6}, {250, 5.1e6}} {
+		if _, ok := mx.PropertiesFromFugacity(ws, s.T, s.P, x, f); ok {
+			t.Fatalf("accepted the state of 250 K, 5 MPa for %g K, %g Pa", s.T, s.P)
+		}
+	}
+	if _, ok := other.PropertiesFromFugacity(other.NewWorkspace(), 250, 5e6, x, f); ok {
+		t.Fatal("accepted another mixture's evaluation")
+	}
+}

@@ -19,13 +19,12 @@ type Workspace struct {
 	hT     []float64
 	hTT    []float64
 
-	x    []float64 // normalised composition
-	di   []float64 // D_i = 2 Σ_j x_j a_ij
-	diT  []float64 // ∂D_i/∂T
-	diTT []float64 // ∂²D_i/∂T² (scratch)
-	pn   []float64 // ∂P/∂n_i at T, V
-	dne  []float64 // e_i and c_i of the composition derivatives (lnPhi)
-	dnc  []float64
+	x   []float64 // normalised composition
+	di  []float64 // D_i = 2 Σ_j x_j a_ij
+	diT []float64 // ∂D_i/∂T
+	pn  []float64 // ∂P/∂n_i at T, V
+	dne []float64 // e_i and c_i of the composition derivatives (lnPhi)
+	dnc []float64
 
 	// Ideal-gas H, S (at PRef) and Cp of each component at igT, filled by
 	// the first property evaluation at a temperature.
@@ -42,6 +41,7 @@ type state struct {
 	Z          float64
 	A, B       float64
 	D, DT, DTT float64
+	hasTT      bool // DTT (and so FTT) was computed
 	Bm         float64
 	f, fV, fB  float64
 	g          float64
@@ -68,7 +68,6 @@ func (mx *Mixture) NewWorkspace() *Workspace {
 		x:     make([]float64, n),
 		di:    make([]float64, n),
 		diT:   make([]float64, n),
-		diTT:  make([]float64, n),
 		pn:    make([]float64, n),
 		dne:   make([]float64, n),
 		dnc:   make([]float64, n),

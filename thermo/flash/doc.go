@@ -103,7 +103,10 @@
 // capacity and the like, with the phase change), which package
 // stateflash uses for its outer Newton iteration. An estimate of the very
 // state it is applied to (the confirmation of a nested solver) is first
-// evaluated without ∂ln φ/∂n.
+// evaluated without ∂ln φ/∂n. The properties of a phase whose last
+// evaluation was at its final composition with ∂ln φ/∂T (the end of a
+// Newton solve) are assembled from that evaluation's root and mixing sums
+// (eos.Mixture.PropertiesFromFugacity) instead of being solved again.
 //
 // Workspace.Split runs the same Newton solve from an estimate without the
 // stability test (Report.Path "unverified"), for nested solvers that

@@ -504,7 +504,16 @@ func (ws *Workspace) finish(res *Result, path Path) error {
 		if ws.aqueous(ph.X) {
 			mx, ews = ws.aq, ws.aws
 		}
-		pr := mx.PropertiesTrusted(ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
+		// A phase last evaluated at its composition with ∂ln φ/∂T (the
+		// end of a Newton solve) has its root and sums in its Fugacity.
+		src := &ws.ph[ws.order[k]]
+		pr, ok := eos.Properties{}, false
+		if src.hasTP {
+			pr, ok = mx.PropertiesFromFugacity(ews, ws.T, ws.P, ph.X, src.f)
+		}
+		if !ok {
+			pr = mx.PropertiesTrusted(ews, ws.T, ws.P, ph.X, eos.RootMinGibbs)
+		}
 		ph.Props = pr
 		b := ph.Beta
 		o.MolarVolume += b * pr.MolarVolume
@@ -583,6 +592,7 @@ func (ws *Workspace) fill(res *Result, path Path, converged bool) {
 			}
 		}
 	}
+	ws.order = order
 	res.T, res.P = ws.T, ws.P
 	copy(res.Z, ws.z)
 	res.Phases = res.phaseBuf[:m]

@@ -55,6 +55,32 @@ func cholSolve(l []float64, n int, b []float64) {
 	}
 }
 
+// cholSolve2 is cholSolve for two right-hand sides b and c at once (one
+// pass over the factor); each comes out exactly as cholSolve gives it.
+func cholSolve2(l []float64, n int, b, c []float64) {
+	b, c = b[:n], c[:n]
+	for i := range n {
+		ri := l[i*n : i*n+i+1]
+		s, t := b[i], c[i]
+		bk, ck := b[:i], c[:i]
+		for k, v := range ri[:i] {
+			s -= v * bk[k]
+			t -= v * ck[k]
+		}
+		b[i], c[i] = s*ri[i], t*ri[i]
+	}
+	for i := n - 1; i >= 0; i-- {
+		ri := l[i*n : i*n+i+1]
+		xi, yi := b[i]*ri[i], c[i]*ri[i]
+		b[i], c[i] = xi, yi
+		bk, ck := b[:i], c[:i]
+		for k, v := range ri[:i] {
+			bk[k] -= v * xi
+			ck[k] -= v * yi
+		}
+	}
+}
+
 // solveSPD solves h·x = −g for a symmetric matrix h (n×n, row-major, of
 // which only the lower triangle j ≤ i is read), writing x into dx. The
 // system is scaled to unit diagonal (Jacobi scaling); when the scaled

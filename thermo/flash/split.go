@@ -52,10 +52,12 @@ func (ws *Workspace) residual() float64 {
 //	G/RT = Σ_k Σ_i n_ik (ln x_ik + ln φ_ik).
 func (ws *Workspace) gibbs() float64 {
 	g := 0.0
+	n := ws.n
 	for k := range ws.m {
 		p := &ws.ph[k]
+		nm, lnf := p.nm[:n], p.lnf[:n]
 		for _, i := range ws.act {
-			g += p.nm[i] * p.lnf[i]
+			g += nm[i] * lnf[i]
 		}
 	}
 	return g
@@ -119,6 +121,21 @@ func (ws *Workspace) setMoles() {
 		}
 	}
 	if !ws.betaInside() {
+		return
+	}
+	if ws.m == 2 {
+		// The same arithmetic with the two phases' slices in locals.
+		n := ws.n
+		n0, n1, z := ws.ph[0].nm[:n], ws.ph[1].nm[:n], ws.z[:n]
+		for _, i := range ws.act {
+			s := 0.0
+			s += n0[i]
+			s += n1[i]
+			f := z[i] / s
+			n0[i] *= f
+			n1[i] *= f
+		}
+		ws.molesToX()
 		return
 	}
 	for _, i := range ws.act {
@@ -495,6 +512,9 @@ func (ws *Workspace) chordStep(want eos.Want) (bool, error) {
 // unknowns ws.vi, ws.vk (dependent phases ws.dep) with the step cut and
 // Armijo halving of newtonStep, evaluating the phases with want.
 func (ws *Workspace) lineSearch(dim int, want eos.Want) (bool, error) {
+	if ws.m == 2 {
+		return ws.lineSearch2(dim, want)
+	}
 	m := ws.m
 	vi, vk := ws.vi, ws.vk
 	g, dx := ws.g[:dim], ws.dx[:dim]
@@ -563,6 +583,90 @@ func (ws *Workspace) lineSearch(dim int, want eos.Want) (bool, error) {
 	return false, ws.evalAll(eos.WantN)
 }
 
+// lineSearch2 is lineSearch for two phases, where every component has
+// one unknown: the step moves n_i0 by d_i = ±dx (the sign σ_i of
+// hessian2) and n_i1 by −d_i, which keeps the balance exactly. It does the
+// same arithmetic as the general form, in the same order.
+func (ws *Workspace) lineSearch2(dim int, want eos.Want) (bool, error) {
+	g, dx := ws.g[:dim], ws.dx[:dim]
+	vi, vk := ws.vi[:dim], ws.vk[:dim]
+	slope := 0.0
+	for p := range g {
+		slope += g[p] * dx[p]
+	}
+	if !(slope < 0) {
+		return false, nil
+	}
+	p0, p1 := &ws.ph[0], &ws.ph[1]
+	n := ws.n
+	n0, n1 := p0.nm[:n], p1.nm[:n]
+	s0, s1 := p0.nm0[:n], p1.nm0[:n]
+	// d holds the change of n_i0 for a full step; the largest step keeping
+	// every mole number positive follows from both phases.
+	d := ws.K[:n]
+	tmax := 1.0
+	for p, i := range vi {
+		di := dx[p]
+		if vk[p] == 1 {
+			// n_i1 is the unknown: it moves by dx, n_i0 by −dx.
+			if nm := n1[i]; di < 0 && nm+di <= 0 {
+				tmax = min(tmax, 0.9*nm/-di)
+			}
+			if nm := n0[i]; -di < 0 && nm-di <= 0 {
+				tmax = min(tmax, 0.9*nm/di)
+			}
+			d[i] = -di
+			continue
+		}
+		if nm := n0[i]; di < 0 && nm+di <= 0 {
+			tmax = min(tmax, 0.9*nm/-di)
+		}
+		if nm := n1[i]; -di < 0 && nm-di <= 0 {
+			tmax = min(tmax, 0.9*nm/di)
+		}
+		d[i] = di
+	}
+	g0 := ws.gibbs()
+	copy(s0, n0)
+	copy(s1, n1)
+	small := math.Abs(slope) < 1e-13*(1+math.Abs(g0))
+	t := tmax
+	act := ws.act
+	x0, x1 := p0.x[:n], p1.x[:n]
+	for ls := 0; ls < 12; ls++ {
+		ws.rep.NewtonIterations++
+		if err := ws.stop(); err != nil {
+			return false, err
+		}
+		b0, b1 := 0.0, 0.0
+		for _, i := range act {
+			td := t * d[i]
+			n0[i] = s0[i] + td
+			n1[i] = s1[i] - td
+			b0 += n0[i]
+			b1 += n1[i]
+		}
+		p0.beta, p1.beta = b0, b1
+		for _, i := range act {
+			x0[i] = max(n0[i], 0) / b0
+			x1[i] = max(n1[i], 0) / b1
+		}
+		if err := ws.evalAll(want); err != nil {
+			return false, err
+		}
+		g1 := ws.gibbs()
+		if small || g1 <= g0+1e-4*t*slope {
+			return true, nil
+		}
+		t *= 0.5
+	}
+	// Restore the start of the step.
+	copy(n0, s0)
+	copy(n1, s1)
+	ws.molesToX()
+	return false, ws.evalAll(eos.WantN)
+}
+
 // depPhase returns the phase holding most of component i.
 func (ws *Workspace) depPhase(i int) int {
 	r := 0
@@ -586,24 +690,27 @@ func (ws *Workspace) hessian2(dim int) {
 	c := -(ib0 + ib1)
 	sg := ws.sig[:dim]
 	h := ws.H[:dim*dim]
-	for a := range dim {
-		i := ws.vi[a]
-		sg[a] = 1
-		if ws.vk[a] == 1 {
-			sg[a] = -1
+	vi, vk, g := ws.vi[:dim], ws.vk[:dim], ws.g[:dim]
+	l0, l1 := p0.lnf[:n], p1.lnf[:n]
+	x0, x1 := p0.x[:n], p1.x[:n]
+	dn0, dn1 := p0.f.DN[:n*n], p1.f.DN[:n*n]
+	for a, i := range vi {
+		s := 1.0
+		if vk[a] == 1 {
+			s = -1
 		}
-		ws.g[a] = sg[a] * (p0.lnf[i] - p1.lnf[i])
+		sg[a] = s
+		g[a] = s * (l0[i] - l1[i])
 	}
 	// Lower triangle only: solveSPD reads no more.
-	vi := ws.vi[:dim]
 	for a, i := range vi {
-		d0, d1 := p0.f.DN[i*n:][:n], p1.f.DN[i*n:][:n]
+		d0, d1 := dn0[i*n:][:n], dn1[i*n:][:n]
 		row := h[a*dim:][:a+1]
 		sa := sg[a]
 		for b, j := range vi[:a+1] {
 			row[b] = sa * sg[b] * (d0[j]*ib0 + d1[j]*ib1 + c)
 		}
-		row[a] += ib0/max(p0.x[i], tiny) + ib1/max(p1.x[i], tiny)
+		row[a] += ib0/max(x0[i], tiny) + ib1/max(x1[i], tiny)
 	}
 }
 
@@ -653,15 +760,17 @@ func (ws *Workspace) hessianM(dim int) {
 
 // molesToX sets β_k and x_ik from the mole numbers.
 func (ws *Workspace) molesToX() {
+	n := ws.n
 	for k := range ws.m {
 		p := &ws.ph[k]
+		nm, x := p.nm[:n], p.x[:n]
 		s := 0.0
 		for _, i := range ws.act {
-			s += p.nm[i]
+			s += nm[i]
 		}
 		p.beta = s
 		for _, i := range ws.act {
-			p.x[i] = max(p.nm[i], 0) / s
+			x[i] = max(nm[i], 0) / s
 		}
 	}
 }
@@ -698,8 +807,7 @@ func (ws *Workspace) sensitivities() {
 		bP[a] = -(p0.f.DP[i] - p1.f.DP[i]) * s
 	}
 	l := ws.L[:dim*dim]
-	cholSolve(l, dim, bT)
-	cholSolve(l, dim, bP)
+	cholSolve2(l, dim, bT, bP)
 	for i := range ws.n {
 		ws.sensT[i], ws.sensP[i] = 0, 0
 	}

@@ -232,35 +232,41 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 	step := 1.0
 	ok := true
 	tmPrev, dPrev := math.Inf(1), math.Inf(1)
+	// Slices in locals: stores through them would otherwise make the
+	// compiler reload every ws field in every component loop.
+	n := ws.n
+	act := ws.act
+	w, lnWn, d := ws.w[:n], ws.lnWn[:n], ws.d[:n]
+	W, lnW = W[:n], lnW[:n]
 	for it := 0; it < ws.set.maxIt; it++ {
 		if err := ws.stop(); err != nil {
 			return 0, false, err
 		}
 		ws.rep.StabilityIterations++
 		sw := 0.0
-		for _, i := range ws.act {
+		for _, i := range act {
 			sw += W[i]
 		}
 		if !(sw > 0) || math.IsInf(sw, 0) {
 			break
 		}
-		for _, i := range ws.act {
-			ws.w[i] = W[i] / sw
+		for _, i := range act {
+			w[i] = W[i] / sw
 		}
 		want := eos.Want(0)
 		if newton {
 			want = eos.WantN
 		}
-		if err := ws.eval(ws.w, want, ws.tf); err != nil {
+		if err := ws.eval(w, want, ws.tf); err != nil {
 			return 0, false, err
 		}
-		lp := ws.tf.LnPhi
+		lp := ws.tf.LnPhi[:n]
 		tpd, tm, res := 0.0, 1.0, 0.0
 		lsw := math.Log(sw)
-		for _, i := range ws.act {
-			r := lnW[i] + lp[i] - ws.d[i]
-			ws.lnWn[i] = r
-			tpd += ws.w[i] * (r - lsw)
+		for _, i := range act {
+			r := lnW[i] + lp[i] - d[i]
+			lnWn[i] = r
+			tpd += w[i] * (r - lsw)
 			tm += W[i] * (r - 1)
 			res = max(res, math.Abs(r))
 		}
@@ -272,21 +278,21 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		}
 		if tpd < bestTPD {
 			bestTPD = tpd
-			copy(wbest, ws.w)
+			copy(wbest, w)
 		}
 		if tpd < -ws.set.tpdTol && (it >= 2 || tpd < -0.01 || res < 1e-6) {
 			return bestTPD, true, nil
 		}
 		// Distance of the next iterate from the reference and from every
 		// phase already found.
-		dRef := ws.dist(lnW, ws.lnWn, lnRef)
+		dRef := ws.dist(lnW, lnWn, lnRef)
 		near := dRef < trivialTol
 		for k := 0; k < nExist && !near; k++ {
 			if lnx := ws.ph[k].lnx; &lnx[0] == &lnRef[0] {
 				// The reference is this phase (the test of a split).
 				near = dRef < ws.nearTol
 			} else {
-				near = ws.dist(lnW, ws.lnWn, lnx) < ws.nearTol
+				near = ws.dist(lnW, lnWn, lnx) < ws.nearTol
 			}
 		}
 		if near {
@@ -311,8 +317,8 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		}
 		tmPrev = tm
 		if !newton {
-			for _, i := range ws.act {
-				lnW[i] -= ws.lnWn[i]
+			for _, i := range act {
+				lnW[i] -= lnWn[i]
 				W[i] = math.Exp(lnW[i])
 			}
 			if it+1 >= stabSS {
@@ -326,8 +332,8 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		step = 1
 		if !ws.trialNewtonStep(sw) {
 			newton = false
-			for _, i := range ws.act {
-				lnW[i] -= ws.lnWn[i]
+			for _, i := range act {
+				lnW[i] -= lnWn[i]
 				W[i] = math.Exp(lnW[i])
 			}
 		}
@@ -341,6 +347,8 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 // dist is Σ_i (ln W_i − r_i − ln x_i)² over the present components: the
 // squared distance of the next successive-substitution iterate from x.
 func (ws *Workspace) dist(lnW, r, lnx []float64) float64 {
+	n := ws.n
+	lnW, r, lnx = lnW[:n], r[:n], lnx[:n]
 	s := 0.0
 	for _, i := range ws.act {
 		d := lnW[i] - r[i] - lnx[i]

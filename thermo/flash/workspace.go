@@ -65,6 +65,8 @@ type Workspace struct {
 
 	ph [MaxPhases + 1]phaseState
 	m  int
+	// order maps the phases of the last filled Result to ws.ph.
+	order [MaxPhases + 1]int
 
 	// stability
 	trials  []trialSpec
@@ -212,9 +214,12 @@ func (ws *Workspace) evalPhase(k int, want eos.Want) error {
 	}
 	p.hasDN = want&eos.WantN != 0
 	p.hasTP = want&(eos.WantT|eos.WantP) == eos.WantT|eos.WantP
+	n := ws.n
+	x, lnx, lnf, lp := p.x[:n], p.lnx[:n], p.lnf[:n], p.f.LnPhi[:n]
 	for _, i := range ws.act {
-		p.lnx[i] = safeLog(p.x[i])
-		p.lnf[i] = p.lnx[i] + p.f.LnPhi[i]
+		l := safeLog(x[i])
+		lnx[i] = l
+		lnf[i] = l + lp[i]
 	}
 	return nil
 }

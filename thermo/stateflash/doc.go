@@ -82,6 +82,14 @@
 // K-values, which shift the warm start of the next inner flash to the new
 // temperature to first order.
 //
+// A warm start of P–H or P–S from a result of two or more phases begins
+// at the temperature of the first-order step from the estimate's state,
+// with its enthalpy (entropy) and state derivatives (Estimate.H,
+// Estimate.Deriv), which saves the inner flash at the estimate's own
+// temperature; where the confirming flash takes no Newton step, the final
+// result keeps the derivatives of the split it confirmed, so the next
+// call can take the same step.
+//
 // The single-phase seed stops one Newton step short: from a scaled
 // residual below 1e-5 the step is taken unevaluated and the T–P flash
 // that follows checks the specification.

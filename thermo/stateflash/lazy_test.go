@@ -54,3 +54,74 @@ func TestMisleadingEstimate(t *testing.T) {
 		}
 	}
 }
+
+// TestWarmDerivativeStep checks the first-order start of P–H and P–S from
+// an estimate's state derivatives: a two-phase result hands them on; with
+// them the warm solve needs fewer inner flashes than from the estimate's
+// temperature alone; and derivatives or state functions that are wrong
+// (a heat capacity 100 times too small or large, the sign of ∂H/∂P
+// flipped, an enthalpy 5 kJ/mol off) change the work done, never the
+// answer (the same temperature to 1e-8 K and phase count as the cold
+// solve).
+func TestWarmDerivativeStep(t *testing.T) {
+	ctx := context.Background()
+	mx, z := benchGas(t)
+	fws, fr := flash.NewWorkspace(mx), flash.NewResult(mx)
+	ws, prev, cold, warm := NewWorkspace(mx), NewResult(mx), NewResult(mx), NewResult(mx)
+	for _, spec := range []Spec{SpecPH, SpecPS} {
+		run := func(P, val float64, e *Estimate, r *Result) {
+			t.Helper()
+			var err error
+			if spec == SpecPS {
+				err = ws.PS(ctx, P, val, z, Options{}, e, r)
+			} else {
+				err = ws.PH(ctx, P, val, z, Options{}, e, r)
+			}
+			if err != nil {
+				t.Fatal(err)
+			}
+		}
+		value := func(o flash.Overall) float64 {
+			if spec == SpecPS {
+				return o.S
+			}
+			return o.H
+		}
+		// The previous timestep at 249.5 K, 4.975 MPa; the state at 250 K, 5 MPa.
+		if err := fws.PT(ctx, 249.5, 4.975e6, z, flash.Options{}, nil, fr); err != nil {
+			t.Fatal(err)
+		}
+		run(4.975e6, value(fr.Overall), nil, prev)
+		est := prev.Estimate()
+		if len(prev.Phases) != 2 || !est.HasDeriv || !(est.Deriv.HT > 0) {
+			t.Fatalf("%v: two-phase result (%d phases) gave no state derivatives: %+v", spec, len(prev.Phases), est.Deriv)
+		}
+		if err := fws.PT(ctx, 250, 5e6, z, flash.Options{}, nil, fr); err != nil {
+			t.Fatal(err)
+		}
+		val := value(fr.Overall)
+		run(5e6, val, nil, cold)
+		run(5e6, val, &est, warm)
+		plain := est
+		plain.HasDeriv = false
+		ref := NewResult(mx)
+		run(5e6, val, &plain, ref)
+		if warm.Report.Flashes >= ref.Report.Flashes {
+			t.Errorf("%v: %d inner flashes with the derivative step, %d without", spec, warm.Report.Flashes, ref.Report.Flashes)
+		}
+		wrong := []func(e *Estimate){
+			func(e *Estimate) { e.Deriv.HT *= 100 },
+			func(e *Estimate) { e.Deriv.HT /= 100 },
+			func(e *Estimate) { e.Deriv.HP, e.Deriv.VT = -e.Deriv.HP, -e.Deriv.VT },
+			func(e *Estimate) { e.H -= 5000; e.S -= 20 },
+		}
+		for k, spoil := range append(wrong, func(*Estimate) {}) {
+			e := est
+			spoil(&e)
+			run(5e6, val, &e, warm)
+			if math.Abs(warm.T-cold.T) > 1e-8 || len(warm.Phases) != len(cold.Phases) {
+				t.Errorf("%v estimate %d: T %.10f (%d phases), cold %.10f (%d phases)", spec, k, warm.T, len(warm.Phases), cold.T, len(cold.Phases))
+			}
+		}
+	}
+}

@@ -71,6 +71,9 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 			fwarm = &warm.Flash
 		}
 	}
+	if fwarm != nil && fwarm.Phases >= 2 {
+		T = ws.warmStep(T, warm)
+	}
 	T = math.Min(math.Max(T, ws.set.tmin), ws.set.tmax)
 	if fwarm == nil || fwarm.Phases <= 1 {
 		// Single-phase solve, then one flash to confirm it.
@@ -98,6 +101,7 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 		// tested, so a metastable path never changes the answer.
 		ws.lazy = false
 		ws.est = ws.fres.Estimate()
+		d, dOK := ws.fres.Derivatives()
 		if err := ws.tp(T, P, &ws.est); err != nil {
 			return ws.innerErr(err, T, P)
 		}
@@ -107,10 +111,39 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 			}
 		} else {
 			ws.o.resid = ws.pressureResid()
+			if _, ok := ws.fres.Derivatives(); !ok && dOK && ws.fres.Report.NewtonIterations == 0 {
+				// The confirmation took no Newton step, so the split is
+				// the unverified one, whose derivatives still hold.
+				ws.finish(res, RouteNested, ws.o.resid)
+				res.deriv, res.derivOK = d, true
+				return nil
+			}
 		}
 	}
 	ws.finish(res, RouteNested, ws.o.resid)
 	return nil
+}
+
+// warmStep returns the temperature of the first-order step from the
+// estimate's state to the specification (see Estimate.H), or T when the
+// estimate does not carry what it needs. The step is limited to a tenth
+// of T: it only chooses where the outer iteration starts.
+func (ws *Workspace) warmStep(T float64, warm *Estimate) float64 {
+	d := &warm.Deriv
+	if !warm.HasDeriv || warm.T <= 0 || warm.P <= 0 || !(d.HT > 0) || !finite(d.HT) {
+		return T
+	}
+	dP := ws.o.P - warm.P
+	var step float64
+	if ws.spec == SpecPS {
+		step = (ws.o.val - warm.S + d.VT*dP) / (d.HT / warm.T)
+	} else {
+		step = (ws.o.val - warm.H - d.HP*dP) / d.HT
+	}
+	if !finite(step) {
+		return T
+	}
+	return warm.T + math.Max(-0.1*warm.T, math.Min(0.1*warm.T, step))
 }
 
 // pressureResid is the specification residual of the last inner flash

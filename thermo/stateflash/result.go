@@ -94,6 +94,10 @@ type Result struct {
 	// inner result (when sensOK) into Estimate.
 	dLnKdT, dLnKdP []float64
 	sensOK         bool
+	// deriv holds the state derivatives of the final inner result when
+	// derivOK.
+	deriv   flash.StateDerivatives
+	derivOK bool
 
 	phaseBuf [flash.MaxPhases]flash.Phase
 	betaBuf  [flash.MaxPhases]float64
@@ -124,6 +128,20 @@ type Estimate struct {
 	T, P float64
 	// Flash is the estimate of the phase split (may be zero-valued).
 	Flash flash.Estimate
+	// H and S are the molar enthalpy (J/mol) and entropy (J/(mol·K)) of
+	// the estimate's state (T, P), and Deriv its state derivatives
+	// (flash.StateDerivatives: total heat capacity and the like, with the
+	// change of the phase split), valid when HasDeriv is set (optional).
+	// With them and two or more phases in Flash, P–H and P–S start from
+	// the temperature of the first-order step to the specification,
+	//	T + (H_spec − H − (∂H/∂P)_T·ΔP)/(∂H/∂T)_P,
+	//	T + (S_spec − S + (∂V/∂T)_P·ΔP)/((∂H/∂T)_P/T),  ΔP = P_spec − P,
+	// instead of from T (Maxwell: (∂S/∂P)_T = −(∂V/∂T)_P), which saves an
+	// inner flash; the outer iteration converges from either start, so the
+	// answer does not depend on them.
+	H, S     float64
+	Deriv    flash.StateDerivatives
+	HasDeriv bool
 }
 
 // Estimate returns the result as a warm start for the next flash. The
@@ -142,6 +160,8 @@ func (r *Result) Estimate() Estimate {
 	if k == 2 && r.sensOK {
 		e.Flash.DLnKDT, e.Flash.DLnKDP = r.dLnKdT, r.dLnKdP
 	}
+	e.H, e.S = r.Overall.H, r.Overall.S
+	e.Deriv, e.HasDeriv = r.deriv, r.derivOK
 	return e
 }
 
@@ -165,4 +185,5 @@ func (r *Result) copyFrom(f *flash.Result) {
 		copy(r.dLnKdT, e.DLnKDT)
 		copy(r.dLnKdP, e.DLnKDP)
 	}
+	r.deriv, r.derivOK = f.Derivatives()
 }

@@ -738,10 +738,13 @@ type FlashResult struct {
 	// K-values y_i/x_i of the vapour against the heaviest liquid for a
 	// multiphase result, in component order; empty for a single phase.
 	KValues []float64 `protobuf:"fixed64,6,rep,packed,name=k_values,json=kValues,proto3" json:"k_values,omitempty"`
-	// Initial estimate for the next request on a nearby state: copy it into
-	// FlashState.warm_start. For the specifications that solve for the
-	// temperature or the pressure (all but tp) it carries both, and the
-	// vapour-fraction specifications add the K-values.
+	// Initial estimate for the next request on a nearby state: copy it
+	// unchanged into FlashState.warm_start. It carries the phases and the
+	// temperature and pressure of this state (the vapour-fraction
+	// specifications add the K-values); a two-phase result of the T–P
+	// or a state-function specification adds the sensitivities of its
+	// K-values to temperature and pressure, with which the next flash starts
+	// from K-values shifted to its own state (see WarmStart).
 	WarmStart *WarmStart `protobuf:"bytes,7,opt,name=warm_start,json=warmStart,proto3" json:"warm_start,omitempty"`
 	// What the solver did.
 	Report        *SolverReport `protobuf:"bytes,8,opt,name=report,proto3" json:"report,omitempty"`

@@ -566,9 +566,16 @@ func (x *PhaseEstimate) GetMoleFractions() []float64 {
 
 // WarmStart is an initial estimate that a caller sends back from an earlier
 // result (for example the previous timestep). The server keeps no state: a
-// result's `warm_start` is meant to be copied verbatim into the next
-// request. A bad estimate never gives a wrong answer: the solver checks it
-// and falls back to full stability analysis (see InitialEstimate).
+// result's `warm_start` is meant to be copied back unchanged into the next
+// request, whole (the fields belong together: the sensitivities hold at the
+// state of temperature_k and pressure_pa, for the split of phases). A bad,
+// stale or edited estimate never gives a wrong answer: the solver checks it
+// and falls back to full stability analysis (see InitialEstimate), so the
+// answer agrees with a cold start within the solver tolerance; only the work
+// done, the report and the last bits of the numbers depend on it. The
+// answer for a request carrying a given warm start is deterministic (same
+// request, same bytes), which is why every field here is part of the
+// result-cache key.
 type WarmStart struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// K-values y_i/x_i of a two-phase split, in component order; empty or one
@@ -576,12 +583,41 @@ type WarmStart struct {
 	KValues []float64 `protobuf:"fixed64,1,rep,packed,name=k_values,json=kValues,proto3" json:"k_values,omitempty"`
 	// Phase compositions and amounts (for three-phase splits); optional.
 	Phases []*PhaseEstimate `protobuf:"bytes,2,rep,name=phases,proto3" json:"phases,omitempty"`
-	// Temperature estimate, K, for specifications that solve for T.
+	// Temperature of the state the estimate describes, K: the start of the
+	// temperature iteration of specifications that solve for T, and the
+	// temperature from which the K-values are shifted by
+	// ln_k_temperature_sensitivity_per_k. Within [1, 10000] K when set.
 	TemperatureK *float64 `protobuf:"fixed64,3,opt,name=temperature_k,json=temperatureK,proto3,oneof" json:"temperature_k,omitempty"`
-	// Pressure estimate, Pa, for specifications that solve for P.
-	PressurePa    *float64 `protobuf:"fixed64,4,opt,name=pressure_pa,json=pressurePa,proto3,oneof" json:"pressure_pa,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// Pressure of the state the estimate describes, Pa: the start of the
+	// pressure iteration of specifications that solve for P, and the
+	// pressure from which the K-values are shifted by
+	// ln_k_pressure_sensitivity_per_pa. Within [1e-3, 1e10] Pa when set.
+	PressurePa *float64 `protobuf:"fixed64,4,opt,name=pressure_pa,json=pressurePa,proto3,oneof" json:"pressure_pa,omitempty"`
+	// Sensitivity of the two-phase split's K-values to temperature at
+	// constant pressure and feed, d ln K_i/dT, 1/K, in component order, with
+	// K_i the ratio of the first phase's mole fraction to the second's (as
+	// k_values, or as phases[0] over phases[1]). Results of two phases that
+	// the solver converged with Newton's method carry it (T–P and the
+	// state-function specifications). Empty, or one finite value per
+	// component with magnitude at most 1e4 1/K.
+	//
+	// With it, ln_k_pressure_sensitivity_per_pa, temperature_k and
+	// pressure_pa all present and a two-phase estimate, the flash at (T′, P′)
+	// starts from the K-values shifted to first order,
+	//
+	//	ln K_i + (d ln K_i/dT)·(T′ − T) + (d ln K_i/dP)·(P′ − P),
+	//
+	// with the largest shift limited to 1, which saves Newton iterations when
+	// the state moves by small steps (as between the timesteps of a
+	// simulation). Otherwise it is not used.
+	LnKTemperatureSensitivityPerK []float64 `protobuf:"fixed64,5,rep,packed,name=ln_k_temperature_sensitivity_per_k,json=lnKTemperatureSensitivityPerK,proto3" json:"ln_k_temperature_sensitivity_per_k,omitempty"`
+	// Sensitivity of the two-phase split's K-values to pressure at constant
+	// temperature and feed, d ln K_i/dP, 1/Pa, in component order (see
+	// ln_k_temperature_sensitivity_per_k). Empty, or one finite value per
+	// component with magnitude at most 1e4 1/Pa.
+	LnKPressureSensitivityPerPa []float64 `protobuf:"fixed64,6,rep,packed,name=ln_k_pressure_sensitivity_per_pa,json=lnKPressureSensitivityPerPa,proto3" json:"ln_k_pressure_sensitivity_per_pa,omitempty"`
+	unknownFields               protoimpl.UnknownFields
+	sizeCache                   protoimpl.SizeCache
 }
 
 func (x *WarmStart) Reset() {
@@ -640,6 +676,20 @@ func (x *WarmStart) GetPressurePa() float64 {
 		return *x.PressurePa
 	}
 	return 0
+}
+
+func (x *WarmStart) GetLnKTemperatureSensitivityPerK() []float64 {
+	if x != nil {
+		return x.LnKTemperatureSensitivityPerK
+	}
+	return nil
+}
+
+func (x *WarmStart) GetLnKPressureSensitivityPerPa() []float64 {
+	if x != nil {
+		return x.LnKPressureSensitivityPerPa
+	}
+	return nil
 }
 
 // Properties are the thermodynamic properties of one phase or of the whole
@@ -844,13 +894,15 @@ const file_fugad_v1_solver_proto_rawDesc = "" +
 	"\rPhaseEstimate\x12*\n" +
 	"\x05label\x18\x01 \x01(\x0e2\x14.fugad.v1.PhaseLabelR\x05label\x12\x16\n" +
 	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12%\n" +
-	"\x0emole_fractions\x18\x03 \x03(\x01R\rmoleFractions\"\xc9\x01\n" +
+	"\x0emole_fractions\x18\x03 \x03(\x01R\rmoleFractions\"\xdb\x02\n" +
 	"\tWarmStart\x12\x19\n" +
 	"\bk_values\x18\x01 \x03(\x01R\akValues\x12/\n" +
 	"\x06phases\x18\x02 \x03(\v2\x17.fugad.v1.PhaseEstimateR\x06phases\x12(\n" +
 	"\rtemperature_k\x18\x03 \x01(\x01H\x00R\ftemperatureK\x88\x01\x01\x12$\n" +
 	"\vpressure_pa\x18\x04 \x01(\x01H\x01R\n" +
-	"pressurePa\x88\x01\x01B\x10\n" +
+	"pressurePa\x88\x01\x01\x12I\n" +
+	"\"ln_k_temperature_sensitivity_per_k\x18\x05 \x03(\x01R\x1dlnKTemperatureSensitivityPerK\x12E\n" +
+	" ln_k_pressure_sensitivity_per_pa\x18\x06 \x03(\x01R\x1blnKPressureSensitivityPerPaB\x10\n" +
 	"\x0e_temperature_kB\x0e\n" +
 	"\f_pressure_pa\"\xdd\b\n" +
 	"\n" +
