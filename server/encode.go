@@ -16,8 +16,8 @@ import (
 // tree, without the reflection-driven size and marshal passes of
 // proto.Marshal, into a buffer the caller reuses. It produces exactly the
 // bytes of marshalAnswer (deterministic proto.Marshal) for the fields of
-// FlashResult, Phase, Properties, WarmStart, PhaseEstimate, SolverReport
-// and StageReport — fields in number order; proto3 scalars omitted at
+// FlashResult, Phase, Properties, WarmStart, PhaseEstimate,
+// StateDerivatives, SolverReport and StageReport — fields in number order; proto3 scalars omitted at
 // their zero value (a negative zero is kept, as proto.Marshal keeps it);
 // fields with explicit presence written when set; repeated doubles packed.
 // It does not model unknown fields, which a tree the server builds
@@ -32,7 +32,9 @@ const (
 
 	phLabel, phAmount, phMoleFractions, phLnPhi, phProperties protowire.Number = 1, 2, 3, 4, 5
 
-	wsKValues, wsPhases, wsTemperature, wsPressure, wsLnKDT, wsLnKDP protowire.Number = 1, 2, 3, 4, 5, 6
+	wsKValues, wsPhases, wsTemperature, wsPressure, wsLnKDT, wsLnKDP, wsEnthalpy, wsEntropy, wsDerivatives protowire.Number = 1, 2, 3, 4, 5, 6, 7, 8, 9
+
+	sdHT, sdHP, sdVT, sdVP protowire.Number = 1, 2, 3, 4
 
 	peLabel, peAmount, peMoleFractions protowire.Number = 1, 2, 3
 
@@ -207,11 +209,27 @@ func appendPhaseEstimate(b []byte, e *fugadv1.PhaseEstimate) []byte {
 
 func sizeWarmStart(w *fugadv1.WarmStart) int {
 	n := sizeDoubles(w.KValues) + sizeOptDouble(w.TemperatureK) + sizeOptDouble(w.PressurePa) +
-		sizeDoubles(w.LnKTemperatureSensitivityPerK) + sizeDoubles(w.LnKPressureSensitivityPerPa)
+		sizeDoubles(w.LnKTemperatureSensitivityPerK) + sizeDoubles(w.LnKPressureSensitivityPerPa) +
+		sizeOptDouble(w.MolarEnthalpyJPerMol) + sizeOptDouble(w.MolarEntropyJPerMolK)
 	for _, e := range w.Phases {
 		n += sizeSub(sizePhaseEstimate(e))
 	}
+	if d := w.StateDerivatives; d != nil {
+		n += sizeSub(sizeStateDerivatives(d))
+	}
 	return n
+}
+
+func sizeStateDerivatives(d *fugadv1.StateDerivatives) int {
+	return sizeDouble(d.EnthalpyTemperatureDerivativeJPerMolK) + sizeDouble(d.EnthalpyPressureDerivativeJPerMolPa) +
+		sizeDouble(d.VolumeTemperatureDerivativeM3PerMolK) + sizeDouble(d.VolumePressureDerivativeM3PerMolPa)
+}
+
+func appendStateDerivatives(b []byte, d *fugadv1.StateDerivatives) []byte {
+	b = appendDouble(b, sdHT, d.EnthalpyTemperatureDerivativeJPerMolK)
+	b = appendDouble(b, sdHP, d.EnthalpyPressureDerivativeJPerMolPa)
+	b = appendDouble(b, sdVT, d.VolumeTemperatureDerivativeM3PerMolK)
+	return appendDouble(b, sdVP, d.VolumePressureDerivativeM3PerMolPa)
 }
 
 func appendWarmStart(b []byte, w *fugadv1.WarmStart) []byte {
@@ -223,7 +241,14 @@ func appendWarmStart(b []byte, w *fugadv1.WarmStart) []byte {
 	b = appendOptDouble(b, wsTemperature, w.TemperatureK)
 	b = appendOptDouble(b, wsPressure, w.PressurePa)
 	b = appendDoubles(b, wsLnKDT, w.LnKTemperatureSensitivityPerK)
-	return appendDoubles(b, wsLnKDP, w.LnKPressureSensitivityPerPa)
+	b = appendDoubles(b, wsLnKDP, w.LnKPressureSensitivityPerPa)
+	b = appendOptDouble(b, wsEnthalpy, w.MolarEnthalpyJPerMol)
+	b = appendOptDouble(b, wsEntropy, w.MolarEntropyJPerMolK)
+	if d := w.StateDerivatives; d != nil {
+		b = appendSubHeader(b, wsDerivatives, sizeStateDerivatives(d))
+		b = appendStateDerivatives(b, d)
+	}
+	return b
 }
 
 func sizeStage(s *fugadv1.StageReport) int {

@@ -118,7 +118,12 @@ func TestAppendFlashResultMatchesMarshal(t *testing.T) {
 			m.Phases = append(m.Phases, &fugadv1.Phase{Label: fugadv1.PhaseLabel(rng.IntN(4)), Amount: num(), MoleFractions: nums(), LnFugacityCoefficients: nums(), Properties: props()})
 		}
 		if rng.IntN(4) > 0 {
-			w := &fugadv1.WarmStart{KValues: nums(), TemperatureK: opt(), PressurePa: opt(), LnKTemperatureSensitivityPerK: nums(), LnKPressureSensitivityPerPa: nums()}
+			w := &fugadv1.WarmStart{KValues: nums(), TemperatureK: opt(), PressurePa: opt(), LnKTemperatureSensitivityPerK: nums(), LnKPressureSensitivityPerPa: nums(),
+				MolarEnthalpyJPerMol: opt(), MolarEntropyJPerMolK: opt()}
+			if rng.IntN(3) > 0 {
+				w.StateDerivatives = &fugadv1.StateDerivatives{EnthalpyTemperatureDerivativeJPerMolK: num(), EnthalpyPressureDerivativeJPerMolPa: num(),
+					VolumeTemperatureDerivativeM3PerMolK: num(), VolumePressureDerivativeM3PerMolPa: num()}
+			}
 			for range rng.IntN(4) {
 				w.Phases = append(w.Phases, &fugadv1.PhaseEstimate{Label: fugadv1.PhaseLabel(rng.IntN(4)), Amount: num(), MoleFractions: nums()})
 			}

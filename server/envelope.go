@@ -53,7 +53,7 @@ func appendOptions(kb *cache.KeyBuilder, o *fugadv1.SolverOptions) {
 }
 
 // appendWarm appends a warm start's content to a key: every field, the
-// ln K sensitivities included (they move the answer only within the
+// ln K sensitivities, the caloric values and the state derivatives included (they move the answer only within the
 // solver tolerance, but the server answers the same request with the same
 // bytes, so a request with other sensitivities is another request).
 func appendWarm(kb *cache.KeyBuilder, w *fugadv1.WarmStart) {
@@ -74,6 +74,15 @@ func appendWarm(kb *cache.KeyBuilder, w *fugadv1.WarmStart) {
 	kb.AppendFloat64(w.GetPressurePa())
 	kb.AppendFloat64s(w.GetLnKTemperatureSensitivityPerK())
 	kb.AppendFloat64s(w.GetLnKPressureSensitivityPerPa())
+	kb.AppendBool(w.MolarEnthalpyJPerMol != nil)
+	kb.AppendFloat64(w.GetMolarEnthalpyJPerMol())
+	kb.AppendBool(w.MolarEntropyJPerMolK != nil)
+	kb.AppendFloat64(w.GetMolarEntropyJPerMolK())
+	d := w.GetStateDerivatives()
+	kb.AppendBool(d != nil)
+	for _, x := range stateDerivativeValues(d) {
+		kb.AppendFloat64(x)
+	}
 }
 
 // saturationBranch maps the wire enum; ok is false for unknown values.

@@ -102,6 +102,20 @@ func (s *Server) fillFlashJob(job *flashJob, cf *compiledFluid, field string, st
 			}
 			w.LnKTemperatureSensitivityPerK = quantizeAll(warm.GetLnKTemperatureSensitivityPerK(), q)
 			w.LnKPressureSensitivityPerPa = quantizeAll(warm.GetLnKPressureSensitivityPerPa(), q)
+			if warm.MolarEnthalpyJPerMol != nil {
+				w.MolarEnthalpyJPerMol = proto.Float64(cache.Quantize(warm.GetMolarEnthalpyJPerMol(), q))
+			}
+			if warm.MolarEntropyJPerMolK != nil {
+				w.MolarEntropyJPerMolK = proto.Float64(cache.Quantize(warm.GetMolarEntropyJPerMolK(), q))
+			}
+			if d := warm.GetStateDerivatives(); d != nil {
+				w.StateDerivatives = &fugadv1.StateDerivatives{
+					EnthalpyTemperatureDerivativeJPerMolK: cache.Quantize(d.GetEnthalpyTemperatureDerivativeJPerMolK(), q),
+					EnthalpyPressureDerivativeJPerMolPa:   cache.Quantize(d.GetEnthalpyPressureDerivativeJPerMolPa(), q),
+					VolumeTemperatureDerivativeM3PerMolK:  cache.Quantize(d.GetVolumeTemperatureDerivativeM3PerMolK(), q),
+					VolumePressureDerivativeM3PerMolPa:    cache.Quantize(d.GetVolumePressureDerivativeM3PerMolPa(), q),
+				}
+			}
 			job.warm = w
 		}
 	}

@@ -74,9 +74,37 @@ func checkStateResult(t *testing.T, what string, got *fugadv1.FlashResult, want 
 	}
 }
 
+// checkStateWarm compares the molar enthalpy, entropy and state
+// derivatives of a state-function result's warm start with the library's
+// Estimate, bit for bit: present exactly when the library has them.
+func checkStateWarm(t *testing.T, what string, ws *fugadv1.WarmStart, est *stateflash.Estimate) {
+	t.Helper()
+	if ws.MolarEnthalpyJPerMol == nil || !sameBit(ws.GetMolarEnthalpyJPerMol(), est.H) ||
+		ws.MolarEntropyJPerMolK == nil || !sameBit(ws.GetMolarEntropyJPerMolK(), est.S) {
+		t.Errorf("%s: warm start H, S = %v, %v; want %v, %v", what, ws.MolarEnthalpyJPerMol, ws.MolarEntropyJPerMolK, est.H, est.S)
+	}
+	d := ws.GetStateDerivatives()
+	if (d != nil) != est.HasDeriv {
+		t.Errorf("%s: warm start state_derivatives %v, library has them: %v", what, d, est.HasDeriv)
+		return
+	}
+	if d == nil {
+		return
+	}
+	got := stateDerivativeValues(d)
+	want := [4]float64{est.Deriv.HT, est.Deriv.HP, est.Deriv.VT, est.Deriv.VP}
+	for i := range got {
+		if !sameBit(got[i], want[i]) {
+			t.Errorf("%s: warm start %s = %v, want %v", what, stateDerivativeFields[i].name, got[i], want[i])
+		}
+	}
+}
+
 // TestStateFlashMatchesThermo checks P–H, P–S, T–V and U–V flashes over a
 // real connection against direct stateflash calls (same normalised feed),
-// bit for bit, cold and warm-started from a neighbouring result, on one
+// bit for bit, cold and warm-started from a neighbouring result (whose
+// wire warm start must be the library's full Estimate, enthalpy, entropy
+// and state derivatives included), on one
 // and two phases of the test gas and on the three-phase wet gas. The
 // specified values are those of T–P flashes of the library, so each
 // state-function flash must land on that T–P state (a consistency check
@@ -95,6 +123,7 @@ func TestStateFlashMatchesThermo(t *testing.T) {
 		{"gas two phase", gas10Fluid(), gas10IDs, gas10X, 250, 5e6},
 		{"wet gas three phase", wetFluid(), wetIDs, wetX, 310, 7e6},
 	}
+	withDeriv := 0 // P–H and P–S warm starts with state derivatives
 	for _, tc := range cases {
 		mx := mixtureOf(t, eos.PR78, tc.ids...)
 		z := normalised(tc.x)
@@ -157,10 +186,10 @@ func TestStateFlashMatchesThermo(t *testing.T) {
 				t.Fatal(err)
 			}
 			est := prevLib.Estimate()
-			// The wire's warm_start carries T, P, the phases and the ln K
-			// sensitivities, not yet the specified value and the state
-			// derivatives that pick the first outer step.
-			est.H, est.S, est.Deriv, est.HasDeriv = 0, 0, flash.StateDerivatives{}, false
+			checkStateWarm(t, what+" (neighbour)", prev.GetResult().GetWarmStart(), &est)
+			if est.HasDeriv && (sp.name == "P–H" || sp.name == "P–S") {
+				withDeriv++
+			}
 			if err := sp.lib(1, &est, want); err != nil {
 				t.Fatalf("%s: library, warm: %v", what, err)
 			}
@@ -172,6 +201,9 @@ func TestStateFlashMatchesThermo(t *testing.T) {
 			}
 			checkStateResult(t, what+" (warm)", warm.GetResult(), want, true)
 		}
+	}
+	if withDeriv == 0 {
+		t.Error("no P–H or P–S warm start carried state derivatives: the first-order start was not exercised")
 	}
 }
 

@@ -7,6 +7,8 @@ import (
 	"math"
 	"strings"
 
+	"google.golang.org/protobuf/proto"
+
 	fugadv1 "github.com/fugad/fugad/api/fugad/v1"
 	"github.com/fugad/fugad/thermo/flash"
 	"github.com/fugad/fugad/thermo/stateflash"
@@ -37,10 +39,13 @@ func stateOptions(o *fugadv1.SolverOptions) stateflash.Options {
 // solveState is the translation of a P–H, P–S, T–V or U–V flash onto
 // stateflash.Workspace: the job's two specified values, composition,
 // options and warm start (temperature_k, pressure_pa, the phase split or
-// K-values and the ln K sensitivities, which hold at that temperature and
-// pressure) in, a FlashResult out, whose warm_start carries the solved
-// temperature and pressure besides the phases, and the inner split's ln K
-// sensitivities for two phases. Errors: see stateError.
+// K-values, the ln K sensitivities, the molar enthalpy and entropy and the
+// state derivatives, which all hold at that temperature and pressure) in,
+// a FlashResult out, whose warm_start carries the solved temperature and
+// pressure besides the phases, the inner split's ln K sensitivities for
+// two phases, and the enthalpy, entropy and state derivatives of
+// Result.Estimate when they are within the bounds of the validation (see
+// setStateWarm). Errors: see stateError.
 func (s *Server) solveState(ctx context.Context, job *flashJob) (*fugadv1.FlashResult, error) {
 	cf := job.fluid
 	sc := getSolverScratch(cf)
@@ -57,6 +62,7 @@ func (s *Server) solveState(ctx context.Context, job *flashJob) (*fugadv1.FlashR
 		if fe := sc.fe.estimate(w); fe != nil {
 			est.Flash = *fe
 		}
+		stateEstimate(&est, w)
 		warm = &est
 	}
 	var err error
@@ -84,14 +90,121 @@ func (s *Server) solveState(ctx context.Context, job *flashJob) (*fugadv1.FlashR
 	// state of the flash result): they come from the state-function
 	// result's own estimate, whose inner state is (res.T, res.P), the
 	// warm start's temperature_k and pressure_pa.
-	if e := res.Estimate(); len(res.Phases) == 2 && sendableSensitivities(e.Flash.DLnKDT, e.Flash.DLnKDP, len(res.Z)) {
+	e := res.Estimate()
+	if len(res.Phases) == 2 && sendableSensitivities(e.Flash.DLnKDT, e.Flash.DLnKDP, len(res.Z)) {
 		n := len(res.Z)
 		buf := make([]float64, 2*n)
 		copy(buf, e.Flash.DLnKDT)
 		copy(buf[n:], e.Flash.DLnKDP)
 		out.WarmStart.LnKTemperatureSensitivityPerK, out.WarmStart.LnKPressureSensitivityPerPa = buf[:n:n], buf[n:]
 	}
+	setStateWarm(out.WarmStart, &e)
 	return out, nil
+}
+
+// Bounds of the state derivatives a warm start may carry
+// (fugadv1.StateDerivatives). The total heat capacity (∂H/∂T)_P of a
+// stable state is positive (Callen, Thermodynamics and an Introduction to
+// Thermostatistics, 2nd ed., 1985, ch. 8, from memory) and, like the
+// enthalpy, at most
+// maxAbsMolarCal. (∂V/∂P)_T of a gas is about −V/P, at most 1e9
+// m³/(mol·Pa) at the accepted extremes of molar volume (1e6 m³/mol) and
+// pressure (1e-3 Pa); (∂V/∂T)_P ≈ V/T and (∂H/∂P)_T = V − T·(∂V/∂T)_P
+// away from a critical point are smaller. A magnitude beyond
+// maxStateDerivative can only be garbage; results whose derivatives fall
+// outside the bounds are sent without them, so that a warm start copied
+// back unchanged is always accepted.
+const (
+	maxHeatCapacity    = maxAbsMolarCal // J/(mol·K)
+	maxStateDerivative = 1e12           // J/(mol·Pa), m³/(mol·K), m³/(mol·Pa)
+)
+
+// stateDerivativeFields are the fields of fugadv1.StateDerivatives in the
+// order of stateDerivativeValues, with their units.
+var stateDerivativeFields = [4]struct{ name, unit string }{
+	{"enthalpy_temperature_derivative_j_per_mol_k", "J/(mol·K)"},
+	{"enthalpy_pressure_derivative_j_per_mol_pa", "J/(mol·Pa)"},
+	{"volume_temperature_derivative_m3_per_mol_k", "m³/(mol·K)"},
+	{"volume_pressure_derivative_m3_per_mol_pa", "m³/(mol·Pa)"},
+}
+
+// stateDerivativeValues lists d's fields in the order of
+// stateDerivativeFields.
+func stateDerivativeValues(d *fugadv1.StateDerivatives) [4]float64 {
+	return [4]float64{d.GetEnthalpyTemperatureDerivativeJPerMolK(), d.GetEnthalpyPressureDerivativeJPerMolPa(),
+		d.GetVolumeTemperatureDerivativeM3PerMolK(), d.GetVolumePressureDerivativeM3PerMolPa()}
+}
+
+// validStateDerivatives reports whether the four derivatives are finite
+// and within their bounds ((∂H/∂T)_P in (0, maxHeatCapacity], the others
+// of magnitude at most maxStateDerivative).
+func validStateDerivatives(d [4]float64) bool {
+	if !(d[0] > 0) || !inRange(d[0], 0, maxHeatCapacity) {
+		return false
+	}
+	for _, x := range d[1:] {
+		if !inRange(x, -maxStateDerivative, maxStateDerivative) {
+			return false
+		}
+	}
+	return true
+}
+
+// stateDerivatives validates a warm start's state_derivatives (absent is
+// valid), naming the offending field.
+func stateDerivatives(v *violations, field string, d *fugadv1.StateDerivatives) {
+	if d == nil {
+		return
+	}
+	vals := stateDerivativeValues(d)
+	for i, x := range vals {
+		f := fieldPath(field, stateDerivativeFields[i].name)
+		switch {
+		case i == 0 && finite(x) && !(x > 0):
+			v.add(f, "must be positive (the heat capacity of a stable state), got %g", x)
+		case i == 0:
+			checkRange(v, f, x, 0, maxHeatCapacity, stateDerivativeFields[i].unit)
+		default:
+			checkRange(v, f, x, -maxStateDerivative, maxStateDerivative, stateDerivativeFields[i].unit)
+		}
+	}
+}
+
+// stateEstimate adds a warm start's molar enthalpy, entropy and state
+// derivatives to est. The derivatives count (HasDeriv) only with both
+// caloric values present, as the wire documents; absent values are zero.
+func stateEstimate(est *stateflash.Estimate, w *fugadv1.WarmStart) {
+	est.H, est.S = w.GetMolarEnthalpyJPerMol(), w.GetMolarEntropyJPerMolK()
+	if d := w.GetStateDerivatives(); d != nil && w.MolarEnthalpyJPerMol != nil && w.MolarEntropyJPerMolK != nil {
+		vals := stateDerivativeValues(d)
+		est.Deriv = flash.StateDerivatives{HT: vals[0], HP: vals[1], VT: vals[2], VP: vals[3]}
+		est.HasDeriv = true
+	}
+}
+
+// setStateWarm writes the molar enthalpy and entropy of a state-function
+// result's estimate e into its warm start ws, each when finite and within
+// ±maxAbsMolarCal, and the state derivatives when e has them, both
+// caloric values were written and all four derivatives are within their
+// bounds: a warm start copied back unchanged passes the validation and
+// gives the library call with e itself.
+func setStateWarm(ws *fugadv1.WarmStart, e *stateflash.Estimate) {
+	if ws == nil {
+		return
+	}
+	if inRange(e.H, -maxAbsMolarCal, maxAbsMolarCal) {
+		ws.MolarEnthalpyJPerMol = proto.Float64(e.H)
+	}
+	if inRange(e.S, -maxAbsMolarCal, maxAbsMolarCal) {
+		ws.MolarEntropyJPerMolK = proto.Float64(e.S)
+	}
+	d := e.Deriv
+	if e.HasDeriv && ws.MolarEnthalpyJPerMol != nil && ws.MolarEntropyJPerMolK != nil && validStateDerivatives([4]float64{d.HT, d.HP, d.VT, d.VP}) {
+		ws.StateDerivatives = &fugadv1.StateDerivatives{
+			EnthalpyTemperatureDerivativeJPerMolK: d.HT, EnthalpyPressureDerivativeJPerMolPa: d.HP,
+			VolumeTemperatureDerivativeM3PerMolK: d.VT, VolumePressureDerivativeM3PerMolPa: d.VP,
+		}
+	}
 }
 
 // stateReport translates a stateflash.Report: the outer iteration as stage

@@ -561,12 +561,14 @@ type warmCopy struct {
 	x      [flash.MaxPhases][]float64
 	kv     []float64
 	dT, dP []float64 // ln K sensitivities
+	deriv  fugadv1.StateDerivatives
 	// set reports whether msg holds the warm start of the latest solve.
 	set bool
 }
 
 // copyFrom copies w (phases, K-values, the optional temperature and
-// pressure and the ln K sensitivities) into c's memory, reusing it, and
+// pressure, the ln K sensitivities, the optional molar enthalpy and
+// entropy and the state derivatives) into c's memory, reusing it, and
 // sets c.set.
 func (c *warmCopy) copyFrom(w *fugadv1.WarmStart) {
 	m := min(len(w.GetPhases()), flash.MaxPhases)
@@ -606,6 +608,21 @@ func (c *warmCopy) copyFrom(w *fugadv1.WarmStart) {
 	if c.msg.PressurePa != nil {
 		p := *c.msg.PressurePa
 		c.msg.PressurePa = &p
+	}
+	if w.MolarEnthalpyJPerMol != nil {
+		h := *w.MolarEnthalpyJPerMol
+		c.msg.MolarEnthalpyJPerMol = &h
+	}
+	if w.MolarEntropyJPerMolK != nil {
+		s := *w.MolarEntropyJPerMolK
+		c.msg.MolarEntropyJPerMolK = &s
+	}
+	if d := w.GetStateDerivatives(); d != nil {
+		c.deriv = fugadv1.StateDerivatives{
+			EnthalpyTemperatureDerivativeJPerMolK: d.GetEnthalpyTemperatureDerivativeJPerMolK(), EnthalpyPressureDerivativeJPerMolPa: d.GetEnthalpyPressureDerivativeJPerMolPa(),
+			VolumeTemperatureDerivativeM3PerMolK: d.GetVolumeTemperatureDerivativeM3PerMolK(), VolumePressureDerivativeM3PerMolPa: d.GetVolumePressureDerivativeM3PerMolPa(),
+		}
+		c.msg.StateDerivatives = &c.deriv
 	}
 	c.set = true
 }

@@ -222,6 +222,13 @@ func warmStart(v *violations, field string, w *fugadv1.WarmStart, n int) {
 	}
 	lnKSensitivity(v, fieldPath(field, "ln_k_temperature_sensitivity_per_k"), w.GetLnKTemperatureSensitivityPerK(), n, maxLnKTemperatureSensitivity, "1/K")
 	lnKSensitivity(v, fieldPath(field, "ln_k_pressure_sensitivity_per_pa"), w.GetLnKPressureSensitivityPerPa(), n, maxLnKPressureSensitivity, "1/Pa")
+	if w.MolarEnthalpyJPerMol != nil {
+		checkRange(v, fieldPath(field, "molar_enthalpy_j_per_mol"), w.GetMolarEnthalpyJPerMol(), -maxAbsMolarCal, maxAbsMolarCal, "J/mol")
+	}
+	if w.MolarEntropyJPerMolK != nil {
+		checkRange(v, fieldPath(field, "molar_entropy_j_per_mol_k"), w.GetMolarEntropyJPerMolK(), -maxAbsMolarCal, maxAbsMolarCal, "J/(mol·K)")
+	}
+	stateDerivatives(v, fieldPath(field, "state_derivatives"), w.GetStateDerivatives())
 }
 
 // lnKSensitivity validates a warm start's ln K sensitivities: empty, or

@@ -299,3 +299,151 @@ func TestWarmStartWrongSensitivityKeepsTheAnswer(t *testing.T) {
 		}
 	}
 }
+
+// phTwoPhase returns the P–H specification of the two-phase test gas at
+// 250 K and 5 MPa, scaled by k, and the result of a flash there.
+func phTwoPhase(t *testing.T, e *testEnv, k float64) (*fugadv1.FlashState, *fugadv1.FlashResult) {
+	t.Helper()
+	pt, err := e.client.Flash(testCtx(t), &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: tpStateX(gas10X, 250, 5e6)})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st := phStateX(gas10X, 5e6, pt.GetResult().GetOverall().GetMolarEnthalpyJPerMol()*k)
+	got, err := e.client.Flash(testCtx(t), &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: st})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(got.GetResult().GetPhases()) != 2 || got.GetResult().GetWarmStart().GetStateDerivatives() == nil {
+		t.Fatalf("the P–H result has %d phases and state derivatives %v, want two phases with derivatives",
+			len(got.GetResult().GetPhases()), got.GetResult().GetWarmStart().GetStateDerivatives())
+	}
+	return st, got.GetResult()
+}
+
+// TestWarmStartBadStateDerivatives checks that malformed molar enthalpy,
+// entropy and state derivatives in a warm start are rejected with
+// INVALID_ARGUMENT naming the field, in a unary flash and as one batch
+// item's own status.
+func TestWarmStartBadStateDerivatives(t *testing.T) {
+	e := newEnv(t, envOptions{})
+	ctx := testCtx(t)
+	st0, prev := phTwoPhase(t, e, 1.01)
+	good := prev.GetWarmStart()
+	const w, d = "state.warm_start.", "state.warm_start.state_derivatives."
+	for _, tc := range []struct {
+		name  string
+		mut   func(w *fugadv1.WarmStart)
+		field string
+	}{
+		{"H NaN", func(w *fugadv1.WarmStart) { w.MolarEnthalpyJPerMol = proto.Float64(math.NaN()) }, w + "molar_enthalpy_j_per_mol"},
+		{"S too large", func(w *fugadv1.WarmStart) { w.MolarEntropyJPerMolK = proto.Float64(-2 * maxAbsMolarCal) }, w + "molar_entropy_j_per_mol_k"},
+		{"Cp zero", func(w *fugadv1.WarmStart) { w.StateDerivatives.EnthalpyTemperatureDerivativeJPerMolK = 0 }, d + "enthalpy_temperature_derivative_j_per_mol_k"},
+		{"Cp negative", func(w *fugadv1.WarmStart) { w.StateDerivatives.EnthalpyTemperatureDerivativeJPerMolK = -80 }, d + "enthalpy_temperature_derivative_j_per_mol_k"},
+		{"Cp too large", func(w *fugadv1.WarmStart) {
+			w.StateDerivatives.EnthalpyTemperatureDerivativeJPerMolK = 2 * maxHeatCapacity
+		}, d + "enthalpy_temperature_derivative_j_per_mol_k"},
+		{"dH/dP +Inf", func(w *fugadv1.WarmStart) { w.StateDerivatives.EnthalpyPressureDerivativeJPerMolPa = math.Inf(1) }, d + "enthalpy_pressure_derivative_j_per_mol_pa"},
+		{"dV/dT NaN", func(w *fugadv1.WarmStart) { w.StateDerivatives.VolumeTemperatureDerivativeM3PerMolK = math.NaN() }, d + "volume_temperature_derivative_m3_per_mol_k"},
+		{"dV/dP too large", func(w *fugadv1.WarmStart) {
+			w.StateDerivatives.VolumePressureDerivativeM3PerMolPa = -2 * maxStateDerivative
+		}, d + "volume_pressure_derivative_m3_per_mol_pa"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			w := proto.Clone(good).(*fugadv1.WarmStart)
+			tc.mut(w)
+			st := proto.Clone(st0).(*fugadv1.FlashState)
+			st.GetPh().MolarEnthalpyJPerMol /= 1.01
+			st.WarmStart = w
+			_, err := e.client.Flash(ctx, &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: st})
+			wantViolation(t, err, codes.InvalidArgument, tc.field)
+
+			resp, err := e.client.FlashBatch(ctx, &fugadv1.FlashBatchRequest{Fluid: gas10Fluid(), States: []*fugadv1.FlashState{st0, st}})
+			if err != nil {
+				t.Fatal(err)
+			}
+			items := resp.GetItems()
+			if items[0].GetStatus().GetCode() != int32(codes.OK) {
+				t.Errorf("the good neighbour failed: %v", items[0].GetStatus())
+			}
+			wantViolation(t, statusErr(items[1].GetStatus()), codes.InvalidArgument, "states[1]"+tc.field[len("state"):])
+		})
+	}
+}
+
+// TestWarmStartWrongStateDerivativesKeepTheAnswer sends valid but wrong
+// state derivatives and caloric values (a heat capacity a hundred times
+// too small, which throws the first step to its limit of a tenth of T;
+// the signs of the pressure derivatives reversed; an enthalpy far off)
+// with an otherwise good P–H warm start and checks that the answer is the
+// cold one within the tolerance, and that each is a request of its own in
+// the result cache.
+func TestWarmStartWrongStateDerivativesKeepTheAnswer(t *testing.T) {
+	e := newEnv(t, envOptions{})
+	ctx := testCtx(t)
+	_, prev := phTwoPhase(t, e, 1.01)
+	st0, _ := phTwoPhase(t, e, 1)
+	coldReq := &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: proto.Clone(st0).(*fugadv1.FlashState), BypassCache: true}
+	cold, err := e.client.Flash(ctx, coldReq)
+	if err != nil {
+		t.Fatal(err)
+	}
+	good := prev.GetWarmStart()
+	for _, tc := range []struct {
+		name string
+		mut  func(w *fugadv1.WarmStart)
+	}{
+		{"heat capacity /100", func(w *fugadv1.WarmStart) { w.StateDerivatives.EnthalpyTemperatureDerivativeJPerMolK /= 100 }},
+		{"pressure derivatives reversed", func(w *fugadv1.WarmStart) {
+			w.StateDerivatives.EnthalpyPressureDerivativeJPerMolPa *= -1e3
+			w.StateDerivatives.VolumePressureDerivativeM3PerMolPa *= -1e3
+		}},
+		{"enthalpy far off", func(w *fugadv1.WarmStart) { w.MolarEnthalpyJPerMol = proto.Float64(w.GetMolarEnthalpyJPerMol() + 5e4) }},
+		{"without derivatives", func(w *fugadv1.WarmStart) { w.StateDerivatives = nil }},
+	} {
+		w := proto.Clone(good).(*fugadv1.WarmStart)
+		tc.mut(w)
+		st := proto.Clone(st0).(*fugadv1.FlashState)
+		st.WarmStart = w
+		for i := range 2 {
+			got, err := e.client.Flash(ctx, &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: st})
+			if err != nil {
+				t.Fatalf("%s: %v", tc.name, err)
+			}
+			sameAnswer(t, tc.name, got.GetResult(), cold.GetResult())
+			if fc := got.GetResult().GetReport().GetFromCache(); fc != (i == 1) {
+				t.Errorf("%s: request %d from_cache = %v, want %v (the state derivatives are part of the key)", tc.name, i, fc, i == 1)
+			}
+		}
+	}
+}
+
+// TestSetStateWarmWithinBounds checks that the caloric values and state
+// derivatives of a result go into its warm start only within the bounds of
+// the validation, so that the warm start always passes it.
+func TestSetStateWarmWithinBounds(t *testing.T) {
+	good := flash.StateDerivatives{HT: 86.7, HP: -4.8e-4, VT: 3.0e-6, VP: -7.2e-11}
+	for _, tc := range []struct {
+		name       string
+		e          stateflash.Estimate
+		h, s, deri bool
+	}{
+		{"all good", stateflash.Estimate{H: -8e4, S: -90, Deriv: good, HasDeriv: true}, true, true, true},
+		{"no derivatives", stateflash.Estimate{H: -8e4, S: -90, Deriv: good}, true, true, false},
+		{"H too large", stateflash.Estimate{H: 2 * maxAbsMolarCal, S: -90, Deriv: good, HasDeriv: true}, false, true, false},
+		{"S NaN", stateflash.Estimate{H: -8e4, S: math.NaN(), Deriv: good, HasDeriv: true}, true, false, false},
+		{"Cp negative", stateflash.Estimate{H: -8e4, S: -90, Deriv: flash.StateDerivatives{HT: -1, HP: good.HP, VT: good.VT, VP: good.VP}, HasDeriv: true}, true, true, false},
+		{"dV/dP Inf", stateflash.Estimate{H: -8e4, S: -90, Deriv: flash.StateDerivatives{HT: good.HT, HP: good.HP, VT: good.VT, VP: math.Inf(-1)}, HasDeriv: true}, true, true, false},
+		{"dH/dP too large", stateflash.Estimate{H: -8e4, S: -90, Deriv: flash.StateDerivatives{HT: good.HT, HP: 2 * maxStateDerivative, VT: good.VT, VP: good.VP}, HasDeriv: true}, true, true, false},
+	} {
+		ws := &fugadv1.WarmStart{}
+		setStateWarm(ws, &tc.e)
+		if (ws.MolarEnthalpyJPerMol != nil) != tc.h || (ws.MolarEntropyJPerMolK != nil) != tc.s || (ws.StateDerivatives != nil) != tc.deri {
+			t.Errorf("%s: warm start %v; want H %v, S %v, derivatives %v", tc.name, ws, tc.h, tc.s, tc.deri)
+		}
+		var v violations
+		warmStart(&v, "warm_start", ws, 1)
+		if err := v.err(); err != nil {
+			t.Errorf("%s: the warm start %v is rejected: %v", tc.name, ws, err)
+		}
+	}
+}

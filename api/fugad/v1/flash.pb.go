@@ -744,7 +744,10 @@ type FlashResult struct {
 	// specifications add the K-values); a two-phase result of the T–P
 	// or a state-function specification adds the sensitivities of its
 	// K-values to temperature and pressure, with which the next flash starts
-	// from K-values shifted to its own state (see WarmStart).
+	// from K-values shifted to its own state (see WarmStart). A result of a
+	// state-function specification (P–H, P–S, T–V, U–V) also carries its
+	// molar enthalpy and entropy and, for two phases, its state derivatives,
+	// from which a following P–H or P–S flash takes its first temperature.
 	WarmStart *WarmStart `protobuf:"bytes,7,opt,name=warm_start,json=warmStart,proto3" json:"warm_start,omitempty"`
 	// What the solver did.
 	Report        *SolverReport `protobuf:"bytes,8,opt,name=report,proto3" json:"report,omitempty"`

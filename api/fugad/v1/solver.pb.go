@@ -616,8 +616,38 @@ type WarmStart struct {
 	// ln_k_temperature_sensitivity_per_k). Empty, or one finite value per
 	// component with magnitude at most 1e4 1/Pa.
 	LnKPressureSensitivityPerPa []float64 `protobuf:"fixed64,6,rep,packed,name=ln_k_pressure_sensitivity_per_pa,json=lnKPressureSensitivityPerPa,proto3" json:"ln_k_pressure_sensitivity_per_pa,omitempty"`
-	unknownFields               protoimpl.UnknownFields
-	sizeCache                   protoimpl.SizeCache
+	// Molar enthalpy of the state the estimate describes (at temperature_k
+	// and pressure_pa), J/mol per mole of feed, in the reference state of
+	// Properties. Within [-1e9, 1e9] J/mol when set. Used only together
+	// with molar_entropy_j_per_mol_k and state_derivatives (see there).
+	MolarEnthalpyJPerMol *float64 `protobuf:"fixed64,7,opt,name=molar_enthalpy_j_per_mol,json=molarEnthalpyJPerMol,proto3,oneof" json:"molar_enthalpy_j_per_mol,omitempty"`
+	// Molar entropy of the state the estimate describes, J/(mol·K) per mole
+	// of feed, in the reference state of Properties. Within [-1e9, 1e9]
+	// J/(mol·K) when set. Used only together with molar_enthalpy_j_per_mol
+	// and state_derivatives (see there).
+	MolarEntropyJPerMolK *float64 `protobuf:"fixed64,8,opt,name=molar_entropy_j_per_mol_k,json=molarEntropyJPerMolK,proto3,oneof" json:"molar_entropy_j_per_mol_k,omitempty"`
+	// Derivatives of the state the estimate describes. Results of the
+	// state-function specifications (P–H, P–S, T–V, U–V) carry them, with
+	// molar_enthalpy_j_per_mol and molar_entropy_j_per_mol_k, when the final
+	// inner split had them (two phases converged with Newton's method);
+	// otherwise the message is absent (its presence is what says the
+	// derivatives are known).
+	//
+	// With them, molar_enthalpy_j_per_mol and molar_entropy_j_per_mol_k,
+	// temperature_k, pressure_pa and an estimate of two or more phases, a
+	// P–H or P–S flash at pressure P′ starts its temperature iteration
+	// from the first-order step to the specification,
+	//
+	//	T + (H′ − H − (∂H/∂P)_T·(P′ − P))/(∂H/∂T)_P           (P–H),
+	//	T + (S′ − S + (∂V/∂T)_P·(P′ − P))/((∂H/∂T)_P/T)       (P–S, with
+	//	(∂S/∂P)_T = −(∂V/∂T)_P),
+	//
+	// limited to a tenth of T, instead of from temperature_k. The iteration
+	// converges from either start; the step saves an inner flash. Other
+	// specifications ignore them.
+	StateDerivatives *StateDerivatives `protobuf:"bytes,9,opt,name=state_derivatives,json=stateDerivatives,proto3" json:"state_derivatives,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *WarmStart) Reset() {
@@ -692,6 +722,107 @@ func (x *WarmStart) GetLnKPressureSensitivityPerPa() []float64 {
 	return nil
 }
 
+func (x *WarmStart) GetMolarEnthalpyJPerMol() float64 {
+	if x != nil && x.MolarEnthalpyJPerMol != nil {
+		return *x.MolarEnthalpyJPerMol
+	}
+	return 0
+}
+
+func (x *WarmStart) GetMolarEntropyJPerMolK() float64 {
+	if x != nil && x.MolarEntropyJPerMolK != nil {
+		return *x.MolarEntropyJPerMolK
+	}
+	return 0
+}
+
+func (x *WarmStart) GetStateDerivatives() *StateDerivatives {
+	if x != nil {
+		return x.StateDerivatives
+	}
+	return nil
+}
+
+// StateDerivatives are derivatives of an equilibrium state per mole of
+// feed at fixed feed composition, the change of the phase split included
+// (Michelsen & Mollerup, Thermodynamic Models: Fundamentals and
+// Computational Aspects, 2nd ed., 2007, ch. 11). Each value is finite; the
+// bounds below reject only numbers that can only be unit mistakes or
+// garbage, and a result whose derivatives fall outside them is sent
+// without them.
+type StateDerivatives struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// (∂H/∂T)_P, the total isobaric heat capacity of the (multiphase) state,
+	// J/(mol·K). Positive, at most 1e9 J/(mol·K).
+	EnthalpyTemperatureDerivativeJPerMolK float64 `protobuf:"fixed64,1,opt,name=enthalpy_temperature_derivative_j_per_mol_k,json=enthalpyTemperatureDerivativeJPerMolK,proto3" json:"enthalpy_temperature_derivative_j_per_mol_k,omitempty"`
+	// (∂H/∂P)_T, J/(mol·Pa) (equivalently m³/mol). Magnitude at most 1e12.
+	EnthalpyPressureDerivativeJPerMolPa float64 `protobuf:"fixed64,2,opt,name=enthalpy_pressure_derivative_j_per_mol_pa,json=enthalpyPressureDerivativeJPerMolPa,proto3" json:"enthalpy_pressure_derivative_j_per_mol_pa,omitempty"`
+	// (∂V/∂T)_P, m³/(mol·K). Magnitude at most 1e12.
+	VolumeTemperatureDerivativeM3PerMolK float64 `protobuf:"fixed64,3,opt,name=volume_temperature_derivative_m3_per_mol_k,json=volumeTemperatureDerivativeM3PerMolK,proto3" json:"volume_temperature_derivative_m3_per_mol_k,omitempty"`
+	// (∂V/∂P)_T, m³/(mol·Pa). Magnitude at most 1e12.
+	VolumePressureDerivativeM3PerMolPa float64 `protobuf:"fixed64,4,opt,name=volume_pressure_derivative_m3_per_mol_pa,json=volumePressureDerivativeM3PerMolPa,proto3" json:"volume_pressure_derivative_m3_per_mol_pa,omitempty"`
+	unknownFields                      protoimpl.UnknownFields
+	sizeCache                          protoimpl.SizeCache
+}
+
+func (x *StateDerivatives) Reset() {
+	*x = StateDerivatives{}
+	mi := &file_fugad_v1_solver_proto_msgTypes[5]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *StateDerivatives) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*StateDerivatives) ProtoMessage() {}
+
+func (x *StateDerivatives) ProtoReflect() protoreflect.Message {
+	mi := &file_fugad_v1_solver_proto_msgTypes[5]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use StateDerivatives.ProtoReflect.Descriptor instead.
+func (*StateDerivatives) Descriptor() ([]byte, []int) {
+	return file_fugad_v1_solver_proto_rawDescGZIP(), []int{5}
+}
+
+func (x *StateDerivatives) GetEnthalpyTemperatureDerivativeJPerMolK() float64 {
+	if x != nil {
+		return x.EnthalpyTemperatureDerivativeJPerMolK
+	}
+	return 0
+}
+
+func (x *StateDerivatives) GetEnthalpyPressureDerivativeJPerMolPa() float64 {
+	if x != nil {
+		return x.EnthalpyPressureDerivativeJPerMolPa
+	}
+	return 0
+}
+
+func (x *StateDerivatives) GetVolumeTemperatureDerivativeM3PerMolK() float64 {
+	if x != nil {
+		return x.VolumeTemperatureDerivativeM3PerMolK
+	}
+	return 0
+}
+
+func (x *StateDerivatives) GetVolumePressureDerivativeM3PerMolPa() float64 {
+	if x != nil {
+		return x.VolumePressureDerivativeM3PerMolPa
+	}
+	return 0
+}
+
 // Properties are the thermodynamic properties of one phase or of the whole
 // mixture. Caloric properties use the reference state of the server: the
 // ideal gas at 298.15 K and 101 325 Pa with H equal to the enthalpy of
@@ -736,7 +867,7 @@ type Properties struct {
 
 func (x *Properties) Reset() {
 	*x = Properties{}
-	mi := &file_fugad_v1_solver_proto_msgTypes[5]
+	mi := &file_fugad_v1_solver_proto_msgTypes[6]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -748,7 +879,7 @@ func (x *Properties) String() string {
 func (*Properties) ProtoMessage() {}
 
 func (x *Properties) ProtoReflect() protoreflect.Message {
-	mi := &file_fugad_v1_solver_proto_msgTypes[5]
+	mi := &file_fugad_v1_solver_proto_msgTypes[6]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -761,7 +892,7 @@ func (x *Properties) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Properties.ProtoReflect.Descriptor instead.
 func (*Properties) Descriptor() ([]byte, []int) {
-	return file_fugad_v1_solver_proto_rawDescGZIP(), []int{5}
+	return file_fugad_v1_solver_proto_rawDescGZIP(), []int{6}
 }
 
 func (x *Properties) GetCompressibilityFactor() float64 {
@@ -894,7 +1025,7 @@ const file_fugad_v1_solver_proto_rawDesc = "" +
 	"\rPhaseEstimate\x12*\n" +
 	"\x05label\x18\x01 \x01(\x0e2\x14.fugad.v1.PhaseLabelR\x05label\x12\x16\n" +
 	"\x06amount\x18\x02 \x01(\x01R\x06amount\x12%\n" +
-	"\x0emole_fractions\x18\x03 \x03(\x01R\rmoleFractions\"\xdb\x02\n" +
+	"\x0emole_fractions\x18\x03 \x03(\x01R\rmoleFractions\"\xda\x04\n" +
 	"\tWarmStart\x12\x19\n" +
 	"\bk_values\x18\x01 \x03(\x01R\akValues\x12/\n" +
 	"\x06phases\x18\x02 \x03(\v2\x17.fugad.v1.PhaseEstimateR\x06phases\x12(\n" +
@@ -902,9 +1033,19 @@ const file_fugad_v1_solver_proto_rawDesc = "" +
 	"\vpressure_pa\x18\x04 \x01(\x01H\x01R\n" +
 	"pressurePa\x88\x01\x01\x12I\n" +
 	"\"ln_k_temperature_sensitivity_per_k\x18\x05 \x03(\x01R\x1dlnKTemperatureSensitivityPerK\x12E\n" +
-	" ln_k_pressure_sensitivity_per_pa\x18\x06 \x03(\x01R\x1blnKPressureSensitivityPerPaB\x10\n" +
+	" ln_k_pressure_sensitivity_per_pa\x18\x06 \x03(\x01R\x1blnKPressureSensitivityPerPa\x12;\n" +
+	"\x18molar_enthalpy_j_per_mol\x18\a \x01(\x01H\x02R\x14molarEnthalpyJPerMol\x88\x01\x01\x12<\n" +
+	"\x19molar_entropy_j_per_mol_k\x18\b \x01(\x01H\x03R\x14molarEntropyJPerMolK\x88\x01\x01\x12G\n" +
+	"\x11state_derivatives\x18\t \x01(\v2\x1a.fugad.v1.StateDerivativesR\x10stateDerivativesB\x10\n" +
 	"\x0e_temperature_kB\x0e\n" +
-	"\f_pressure_pa\"\xdd\b\n" +
+	"\f_pressure_paB\x1b\n" +
+	"\x19_molar_enthalpy_j_per_molB\x1c\n" +
+	"\x1a_molar_entropy_j_per_mol_k\"\xf6\x02\n" +
+	"\x10StateDerivatives\x12Z\n" +
+	"+enthalpy_temperature_derivative_j_per_mol_k\x18\x01 \x01(\x01R%enthalpyTemperatureDerivativeJPerMolK\x12V\n" +
+	")enthalpy_pressure_derivative_j_per_mol_pa\x18\x02 \x01(\x01R#enthalpyPressureDerivativeJPerMolPa\x12X\n" +
+	"*volume_temperature_derivative_m3_per_mol_k\x18\x03 \x01(\x01R$volumeTemperatureDerivativeM3PerMolK\x12T\n" +
+	"(volume_pressure_derivative_m3_per_mol_pa\x18\x04 \x01(\x01R\"volumePressureDerivativeM3PerMolPa\"\xdd\b\n" +
 	"\n" +
 	"Properties\x125\n" +
 	"\x16compressibility_factor\x18\x01 \x01(\x01R\x15compressibilityFactor\x124\n" +
@@ -962,17 +1103,18 @@ func file_fugad_v1_solver_proto_rawDescGZIP() []byte {
 }
 
 var file_fugad_v1_solver_proto_enumTypes = make([]protoimpl.EnumInfo, 3)
-var file_fugad_v1_solver_proto_msgTypes = make([]protoimpl.MessageInfo, 6)
+var file_fugad_v1_solver_proto_msgTypes = make([]protoimpl.MessageInfo, 7)
 var file_fugad_v1_solver_proto_goTypes = []any{
-	(SolverStage)(0),      // 0: fugad.v1.SolverStage
-	(InitialEstimate)(0),  // 1: fugad.v1.InitialEstimate
-	(PhaseLabel)(0),       // 2: fugad.v1.PhaseLabel
-	(*SolverOptions)(nil), // 3: fugad.v1.SolverOptions
-	(*StageReport)(nil),   // 4: fugad.v1.StageReport
-	(*SolverReport)(nil),  // 5: fugad.v1.SolverReport
-	(*PhaseEstimate)(nil), // 6: fugad.v1.PhaseEstimate
-	(*WarmStart)(nil),     // 7: fugad.v1.WarmStart
-	(*Properties)(nil),    // 8: fugad.v1.Properties
+	(SolverStage)(0),         // 0: fugad.v1.SolverStage
+	(InitialEstimate)(0),     // 1: fugad.v1.InitialEstimate
+	(PhaseLabel)(0),          // 2: fugad.v1.PhaseLabel
+	(*SolverOptions)(nil),    // 3: fugad.v1.SolverOptions
+	(*StageReport)(nil),      // 4: fugad.v1.StageReport
+	(*SolverReport)(nil),     // 5: fugad.v1.SolverReport
+	(*PhaseEstimate)(nil),    // 6: fugad.v1.PhaseEstimate
+	(*WarmStart)(nil),        // 7: fugad.v1.WarmStart
+	(*StateDerivatives)(nil), // 8: fugad.v1.StateDerivatives
+	(*Properties)(nil),       // 9: fugad.v1.Properties
 }
 var file_fugad_v1_solver_proto_depIdxs = []int32{
 	0, // 0: fugad.v1.StageReport.stage:type_name -> fugad.v1.SolverStage
@@ -980,11 +1122,12 @@ var file_fugad_v1_solver_proto_depIdxs = []int32{
 	1, // 2: fugad.v1.SolverReport.initial_estimate:type_name -> fugad.v1.InitialEstimate
 	2, // 3: fugad.v1.PhaseEstimate.label:type_name -> fugad.v1.PhaseLabel
 	6, // 4: fugad.v1.WarmStart.phases:type_name -> fugad.v1.PhaseEstimate
-	5, // [5:5] is the sub-list for method output_type
-	5, // [5:5] is the sub-list for method input_type
-	5, // [5:5] is the sub-list for extension type_name
-	5, // [5:5] is the sub-list for extension extendee
-	0, // [0:5] is the sub-list for field type_name
+	8, // 5: fugad.v1.WarmStart.state_derivatives:type_name -> fugad.v1.StateDerivatives
+	6, // [6:6] is the sub-list for method output_type
+	6, // [6:6] is the sub-list for method input_type
+	6, // [6:6] is the sub-list for extension type_name
+	6, // [6:6] is the sub-list for extension extendee
+	0, // [0:6] is the sub-list for field type_name
 }
 
 func init() { file_fugad_v1_solver_proto_init() }
@@ -994,14 +1137,14 @@ func file_fugad_v1_solver_proto_init() {
 	}
 	file_fugad_v1_solver_proto_msgTypes[2].OneofWrappers = []any{}
 	file_fugad_v1_solver_proto_msgTypes[4].OneofWrappers = []any{}
-	file_fugad_v1_solver_proto_msgTypes[5].OneofWrappers = []any{}
+	file_fugad_v1_solver_proto_msgTypes[6].OneofWrappers = []any{}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fugad_v1_solver_proto_rawDesc), len(file_fugad_v1_solver_proto_rawDesc)),
 			NumEnums:      3,
-			NumMessages:   6,
+			NumMessages:   7,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
