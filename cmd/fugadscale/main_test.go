@@ -38,7 +38,9 @@ func TestScaleTable(t *testing.T) {
 		if !(r.flash1.evals >= 1 && r.flash2.evals > r.flash1.evals && r.warm2.evals < r.flash2.evals) {
 			t.Errorf("n = %d: ln φ evaluations 1-phase %g, 2-phase %g, warm %g", r.n, r.flash1.evals, r.flash2.evals, r.warm2.evals)
 		}
-		if r.lnPhi.perOp <= 0 || r.flash2.perOp <= r.lnPhi.perOp {
+		// Times are measured, not asserted (one call on a shared machine
+		// says nothing about their order); they must only exist.
+		if r.lnPhi.perOp <= 0 || r.flash2.perOp <= 0 {
 			t.Errorf("n = %d: ln φ %v, flash %v", r.n, r.lnPhi.perOp, r.flash2.perOp)
 		}
 		if r.envNA == "" && (r.envPoints < 3 || r.env.evals < 1) {
