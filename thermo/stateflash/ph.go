@@ -85,7 +85,23 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 		return ws.innerErr(err, T, P)
 	}
 	if len(ws.fres.Phases) == 1 {
-		if r := ws.pressureResid(); r <= ws.set.tol {
+		r := ws.pressureResid()
+		if r > ws.set.tol && ws.seedLoose {
+			// One phase after all: finish the single-phase solve and
+			// confirm it with another flash.
+			ws.seedLoose = false
+			T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax, true)
+			ws.rep.OuterIterations++
+			ws.haveEst = false
+			if err := ws.tp(T, P, nil); err != nil {
+				return ws.innerErr(err, T, P)
+			}
+			r = math.Inf(1)
+			if len(ws.fres.Phases) == 1 {
+				r = ws.pressureResid()
+			}
+		}
+		if r <= ws.set.tol {
 			ws.finish(res, RouteSinglePhase, r)
 			return nil
 		}
@@ -193,6 +209,13 @@ func (ws *Workspace) singlePhaseT(T, lo, hi float64, predict bool) (float64, boo
 		}
 		if !(next > lo && next < hi) {
 			next = 0.5 * (lo + hi)
+		} else if predict && math.Abs(F) <= looseTol*scale && ws.wilsonTwoPhase(next) {
+			// Wilson's K-values put the feed inside the two-phase
+			// region here: the T–P flash that follows most likely finds
+			// two phases, for which a converged single-phase
+			// temperature is no better a start than this one.
+			ws.seedLoose = math.Abs(F) > predictTol*scale
+			return next, true
 		} else if predict && math.Abs(F) <= predictTol*scale {
 			// Newton's method converges quadratically here: the step
 			// lands within the tolerance, which the T–P flash that
@@ -212,6 +235,25 @@ func (ws *Workspace) singlePhaseT(T, lo, hi float64, predict bool) (float64, boo
 // |F|/scale = 1e-5 the step leaves about 1e-10·C, C = |F″|·scale/(2F′²)
 // of order one for h(T) and s(T) away from critical points.
 const predictTol = 1e-5
+
+// looseTol is the scaled residual at which the single-phase solve stops
+// early when Wilson's K-values (Wilson 1968) predict two phases at the
+// next temperature: the nested iteration then starts from that step.
+const looseTol = 0.3
+
+// wilsonTwoPhase reports whether Wilson's K-values at (T, P) put the
+// feed between its bubble and dew points, Σ z_i K_i > 1 and
+// Σ z_i/K_i > 1 (Michelsen & Mollerup 2007, ch. 10).
+func (ws *Workspace) wilsonTwoPhase(T float64) bool {
+	k := ws.bT[:ws.n]
+	ws.mx.WilsonK(T, ws.o.P, k)
+	a, b := 0.0, 0.0
+	for _, i := range ws.act {
+		a += ws.z[i] * k[i]
+		b += ws.z[i] / k[i]
+	}
+	return a > 1 && b > 1
+}
 
 // evalOuter runs the inner flash at the outer variable y (T for P–H and
 // P–S, ln P for T–V) unless flashed, and returns the specification
@@ -258,11 +300,25 @@ func (ws *Workspace) evalOuter(y float64, flashed bool) (F, dF, scale float64, e
 // derivative that is huge or discontinuous — the total heat capacity of a
 // narrow-boiling mixture — then costs bisection steps, never a failure.
 // flashed says the inner result already holds the state at y.
+//
+// For P–H and P–S (ws.lazy) two refinements save inner flashes: between
+// two points of the same phase count with exact derivatives the step is
+// the root of the quadratic model
+//
+//	F(y+s) ≈ F + F′·s + c·s²,  c = (F′ − F′_prev)/(2(y − y_prev)),
+//
+// (kept when within half the Newton step of it), and when the residual
+// of an unverified split is below predictTol the step lands within the
+// tolerance, so the inner flash there is the full T–P flash that confirms
+// the final state instead of one more unverified split.
 func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 	loB, hiB := lo, hi
 	flo, fhi := math.NaN(), math.NaN()
 	prev := math.Inf(1)
 	slow := 0
+	accel := ws.lazy
+	havePrev := false
+	yp, dFp, mp := 0.0, 0.0, 0
 	for it := 0; it < ws.set.maxIt; it++ {
 		if err := ws.stop(); err != nil {
 			return y, err
@@ -309,6 +365,28 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 			slow = 0
 		}
 		prev = math.Abs(F)
+		if finite(dF) && dF > 0 && havePrev && mp == len(ws.fres.Phases) {
+			// Quadratic model through the derivative of the previous
+			// point: F(y+s) ≈ F + F′s + c·s², c = (F′ − F′_prev)/(2(y − y_prev)).
+			c := (dF - dFp) / (2 * (y - yp))
+			disc := dF*dF - 4*c*F
+			if finite(c) && disc > 0 {
+				s := -2 * F / (dF + math.Sqrt(disc))
+				sn := -F / dF
+				if math.Abs(s-sn) <= 0.5*math.Abs(sn) {
+					next = y + s
+				}
+			}
+		}
+		m := len(ws.fres.Phases)
+		havePrev = accel && finite(dF) && dF > 0 && m >= 2
+		yp, dFp, mp = y, dF, m
+		if ws.lazy && ws.unverified && finite(dF) && dF > 0 && ws.o.resid <= predictTol && next > lo && next < hi {
+			// The step from an unverified split lands within the
+			// tolerance (see predictTol): the inner flash there is the
+			// full T–P flash that confirms the final state.
+			ws.lazy = false
+		}
 		if !(next > lo && next < hi) || slow >= 2 {
 			switch {
 			case !math.IsNaN(flo) && !math.IsNaN(fhi):

@@ -39,6 +39,9 @@ type Workspace struct {
 	// flash, and the outer solve confirms its final state with a full T–P
 	// flash before it returns.
 	lazy, unverified bool
+	// seedLoose says the single-phase solve stopped early
+	// (wilsonTwoPhase).
+	seedLoose bool
 
 	// sensitivities
 	fug  [flash.MaxPhases]*eos.Fugacity
@@ -119,7 +122,7 @@ func (ws *Workspace) begin(ctx context.Context, spec Spec, opts *Options, z []fl
 	ws.rep = &res.Report
 	*ws.rep = Report{Spec: spec, Warm: warm != nil}
 	ws.haveEst = false
-	ws.lazy, ws.unverified = false, false
+	ws.lazy, ws.unverified, ws.seedLoose = false, false, false
 	return nil
 }
 
@@ -146,7 +149,14 @@ func (ws *Workspace) tp(T, P float64, warm *flash.Estimate) error {
 	}
 	ws.unverified = false
 	if ws.lazy && warm != nil && warm.Phases >= 2 {
-		ok, err := ws.fws.Split(ws.ctx, T, P, ws.z, ws.set.flash, warm, ws.fres)
+		fo := ws.set.flash
+		if r := ws.o.resid; finite(r) && r > looseSplitResid {
+			// Far from the specification the split only has to place
+			// the next outer step: its error enters H at about
+			// R·T·looseSplitTol, well below the error of that step.
+			fo.Tolerance = math.Max(tolOf(fo), looseSplitTol)
+		}
+		ok, err := ws.fws.Split(ws.ctx, T, P, ws.z, fo, warm, ws.fres)
 		ws.count(&ws.fres.Report)
 		if err != nil && !solverFailure(err) {
 			return err
@@ -390,4 +400,21 @@ func cholSolve(l []float64, n int, b []float64) {
 		}
 		b[i] = s / l[i*n+i]
 	}
+}
+
+// An unverified inner split run while the previous outer residual exceeds
+// looseSplitResid is converged to looseSplitTol (or the inner tolerance,
+// if looser) instead of the inner tolerance.
+const (
+	looseSplitResid = 0.1
+	looseSplitTol   = 1e-6
+)
+
+// tolOf is the fugacity tolerance of inner options (the flash default
+// 1e-10 at zero).
+func tolOf(o flash.Options) float64 {
+	if o.Tolerance == 0 {
+		return 1e-10
+	}
+	return o.Tolerance
 }
