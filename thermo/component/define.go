@@ -128,12 +128,16 @@ func Define(d Definition) (Component, error) {
 		lo, hi float64
 		what   string
 	}{
-		{"MolarMass", d.MolarMass, 0, 5, "molar mass (kg/mol)"},
-		{"Tc", d.Tc, 0, 2000, "critical temperature (K)"},
-		{"Pc", d.Pc, 0, 1e8, "critical pressure (Pa)"},
+		// The lower bounds sit below the lightest real substances
+		// (hydrogen 2.016e-3 kg/mol, helium Tc 5.2 K and Pc 0.23 MPa):
+		// smaller values are unit mistakes, and they drive the cubic's
+		// co-volume and attraction out of floating-point range.
+		{"MolarMass", d.MolarMass, 1e-3, 5, "molar mass (kg/mol)"},
+		{"Tc", d.Tc, 1, 2000, "critical temperature (K)"},
+		{"Pc", d.Pc, 1e4, 1e8, "critical pressure (Pa)"},
 	}
 	for _, c := range checks {
-		if err := inRange(c.field, c.x, c.lo, c.hi, true, c.what); err != nil {
+		if err := inRange(c.field, c.x, c.lo, c.hi, false, c.what); err != nil {
 			return Component{}, err
 		}
 	}

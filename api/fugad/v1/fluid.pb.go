@@ -284,13 +284,13 @@ type UserComponent struct {
 	// Identifier, unique within the fluid: 1–64 lower-case characters without
 	// blanks, '|', '#' or ',', and not the name of a library component.
 	Id string `protobuf:"bytes,1,opt,name=id,proto3" json:"id,omitempty"`
-	// Critical temperature Tc, K, within (0, 2000].
+	// Critical temperature Tc, K, within [1, 2000].
 	CriticalTemperatureK float64 `protobuf:"fixed64,2,opt,name=critical_temperature_k,json=criticalTemperatureK,proto3" json:"critical_temperature_k,omitempty"`
-	// Critical pressure Pc, Pa, within (0, 1e8].
+	// Critical pressure Pc, Pa, within [1e4, 1e8].
 	CriticalPressurePa float64 `protobuf:"fixed64,3,opt,name=critical_pressure_pa,json=criticalPressurePa,proto3" json:"critical_pressure_pa,omitempty"`
 	// Pitzer acentric factor ω, dimensionless, within [−1, 3].
 	AcentricFactor float64 `protobuf:"fixed64,4,opt,name=acentric_factor,json=acentricFactor,proto3" json:"acentric_factor,omitempty"`
-	// Molar mass, kg/mol, within (0, 5].
+	// Molar mass, kg/mol, within [1e-3, 5].
 	MolarMassKgPerMol float64 `protobuf:"fixed64,5,opt,name=molar_mass_kg_per_mol,json=molarMassKgPerMol,proto3" json:"molar_mass_kg_per_mol,omitempty"`
 	// Ideal-gas heat capacity. Optional: when absent it is estimated with the
 	// Kesler & Lee (1976) correlation for petroleum fractions, from the
