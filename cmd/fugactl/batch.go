@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"context"
 	"encoding/csv"
 	"encoding/json"
 	"flag"
@@ -93,14 +94,9 @@ prints the full flash table of every state.
 				}
 			}
 			req := &fugadv1.FlashBatchRequest{Fluid: fd.fluid, MoleFractions: fd.comp.fractions, States: states, Options: so.options(), BypassCache: a.g.noCache}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.FlashBatch(ctx, req)
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.FlashBatchResponse, error) {
+				return c.FlashBatch(ctx, req)
+			})
 			if err != nil {
 				return err
 			}

@@ -87,6 +87,20 @@ func (a *app) callContext() (context.Context, context.CancelFunc) {
 	return context.WithCancel(context.Background())
 }
 
+// unary connects to the server, makes one call under the --timeout
+// deadline and closes the connection again.
+func unary[Resp any](a *app, call func(ctx context.Context, c fugadv1.FugadServiceClient) (Resp, error)) (Resp, error) {
+	client, done, err := a.connect()
+	if err != nil {
+		var zero Resp
+		return zero, err
+	}
+	defer done()
+	ctx, cancel := a.callContext()
+	defer cancel()
+	return call(ctx, client)
+}
+
 // dialTarget describes the server for error messages.
 func (a *app) dialTarget() string {
 	if _, _, err := net.SplitHostPort(a.g.addr); err != nil {

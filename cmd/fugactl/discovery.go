@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"flag"
 	"fmt"
 	"strings"
@@ -21,14 +22,9 @@ constants Ωa, Ωb, and its literature reference.
 			if err := noArgs(args); err != nil {
 				return err
 			}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.ListModels(ctx, &fugadv1.ListModelsRequest{})
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.ListModelsResponse, error) {
+				return c.ListModels(ctx, &fugadv1.ListModelsRequest{})
+			})
 			if err != nil {
 				return err
 			}
@@ -86,14 +82,9 @@ Examples:
 					return err
 				}
 			}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.ListComponents(ctx, &fugadv1.ListComponentsRequest{Filter: search})
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.ListComponentsResponse, error) {
+				return c.ListComponents(ctx, &fugadv1.ListComponentsRequest{Filter: search})
+			})
 			if err != nil {
 				return err
 			}

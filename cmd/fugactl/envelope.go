@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"flag"
 	"fmt"
 	"os"
@@ -90,14 +91,9 @@ export compressor discharge marked):
 					png = prefix + ".png"
 				}
 			}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.PhaseEnvelope(ctx, req)
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.PhaseEnvelopeResponse, error) {
+				return c.PhaseEnvelope(ctx, req)
+			})
 			if err != nil {
 				return err
 			}

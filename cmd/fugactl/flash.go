@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"flag"
 	"fmt"
 	"io"
@@ -59,14 +60,9 @@ Examples (fictional Kestrel Ridge plant):
 				return usageError{err}
 			}
 			req := &fugadv1.FlashRequest{Fluid: fd.fluid, State: st, Options: so.options(), BypassCache: a.g.noCache}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.Flash(ctx, req)
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.FlashResponse, error) {
+				return c.Flash(ctx, req)
+			})
 			if err != nil {
 				return err
 			}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"flag"
 	"fmt"
 	"math"
@@ -82,14 +83,9 @@ Example (fictional Kestrel Ridge separator vapour):
 					}
 				}
 			}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.FugacityCoefficients(ctx, req)
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.FugacityCoefficientsResponse, error) {
+				return c.FugacityCoefficients(ctx, req)
+			})
 			if err != nil {
 				return err
 			}

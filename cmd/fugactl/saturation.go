@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"flag"
 	"fmt"
 	"strings"
@@ -94,14 +95,9 @@ Examples (fictional Kestrel Ridge plant):
 			default:
 				return usagef("give -T (solve for the pressure) or -P (solve for the temperature)")
 			}
-			client, done, err := a.connect()
-			if err != nil {
-				return err
-			}
-			defer done()
-			ctx, cancel := a.callContext()
-			defer cancel()
-			resp, err := client.SaturationPoint(ctx, req)
+			resp, err := unary(a, func(ctx context.Context, c fugadv1.FugadServiceClient) (*fugadv1.SaturationPointResponse, error) {
+				return c.SaturationPoint(ctx, req)
+			})
 			if err != nil {
 				return err
 			}
