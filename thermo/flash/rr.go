@@ -65,10 +65,9 @@ func rachfordRice(z, K []float64, act []int, start float64) (float64, int, rrSta
 		f, df := 0.0, 0.0
 		for _, i := range act {
 			km := K[i] - 1
-			den := 1 + b*km
-			t := z[i] * km / den
-			f += t
-			df -= t * km / den
+			r := km / (1 + b*km)
+			f += z[i] * r
+			df -= z[i] * r * r
 		}
 		if f == 0 {
 			break

@@ -647,9 +647,10 @@ func (ws *Workspace) lineSearch2(dim int, want eos.Want) (bool, error) {
 			b1 += n1[i]
 		}
 		p0.beta, p1.beta = b0, b1
+		i0, i1 := 1/b0, 1/b1
 		for _, i := range act {
-			x0[i] = max(n0[i], 0) / b0
-			x1[i] = max(n1[i], 0) / b1
+			x0[i] = max(n0[i], 0) * i0
+			x1[i] = max(n1[i], 0) * i1
 		}
 		if err := ws.evalAll(want); err != nil {
 			return false, err
@@ -769,8 +770,9 @@ func (ws *Workspace) molesToX() {
 			s += nm[i]
 		}
 		p.beta = s
+		inv := 1 / s
 		for _, i := range ws.act {
-			x[i] = max(nm[i], 0) / s
+			x[i] = max(nm[i], 0) * inv
 		}
 	}
 }

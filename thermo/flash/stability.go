@@ -28,6 +28,15 @@ const (
 	// one of them.
 	existTol  = 1e-2
 	existFrac = 0.05
+	// existNear and nearTM: a trial whose tm is already in [0, nearTM)
+	// and whose next iterate is closer than min(existNear, existFrac·d_min)
+	// to a phase already found is stopped as well. Successive substitution
+	// decreases tm monotonically (Michelsen 1982a) and the phase found is a
+	// minimum of tm with tm = 0 (it lies on the tangent plane), so an
+	// iterate this close to it whose tm has nearly reached that level
+	// cannot leave its basin for a negative tpd.
+	existNear = 5e-2
+	nearTM    = 1e-2
 	// acidGasTrial is the feed mole fraction of CO2 or H2S from which a
 	// pure-component-like trial of it is added.
 	acidGasTrial = 0.1
@@ -166,7 +175,7 @@ func (ws *Workspace) setupTrials() {
 func (ws *Workspace) stabilityTest(lnRef []float64, nExist int) (float64, int, error) {
 	minTPD, best := math.Inf(1), -1
 	ws.nTrial = len(ws.trials)
-	ws.nearTol = existTol
+	ws.nearTol, ws.nearLoose = existTol, existNear
 	for k := 0; k < nExist; k++ {
 		for l := k + 1; l < nExist; l++ {
 			d := 0.0
@@ -175,6 +184,7 @@ func (ws *Workspace) stabilityTest(lnRef []float64, nExist int) (float64, int, e
 				d += e * e
 			}
 			ws.nearTol = min(ws.nearTol, existFrac*d)
+			ws.nearLoose = min(ws.nearLoose, existFrac*d)
 		}
 	}
 	for t := range ws.trials {
@@ -287,12 +297,16 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		// phase already found.
 		dRef := ws.dist(lnW, lnWn, lnRef)
 		near := dRef < trivialTol
+		tol := ws.nearTol
+		if tm >= 0 && tm < nearTM {
+			tol = ws.nearLoose
+		}
 		for k := 0; k < nExist && !near; k++ {
 			if lnx := ws.ph[k].lnx; &lnx[0] == &lnRef[0] {
 				// The reference is this phase (the test of a split).
-				near = dRef < ws.nearTol
+				near = dRef < tol
 			} else {
-				near = ws.dist(lnW, lnWn, lnx) < ws.nearTol
+				near = ws.dist(lnW, lnWn, lnx) < tol
 			}
 		}
 		if near {

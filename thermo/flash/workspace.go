@@ -69,20 +69,21 @@ type Workspace struct {
 	order [MaxPhases + 1]int
 
 	// stability
-	trials  []trialSpec
-	d       []float64
-	W       []float64
-	lnW     []float64
-	lnWn    []float64
-	w       []float64
-	Wp      []float64
-	dir     []float64
-	tf      *eos.Fugacity
-	trialW  [maxTrials][]float64
-	trialT  [maxTrials]float64
-	trialOK [maxTrials]bool
-	nTrial  int
-	nearTol float64 // distance below which a trial is converging to a found phase
+	trials    []trialSpec
+	d         []float64
+	W         []float64
+	lnW       []float64
+	lnWn      []float64
+	w         []float64
+	Wp        []float64
+	dir       []float64
+	tf        *eos.Fugacity
+	trialW    [maxTrials][]float64
+	trialT    [maxTrials]float64
+	trialOK   [maxTrials]bool
+	nTrial    int
+	nearTol   float64 // distance below which a trial is converging to a found phase
+	nearLoose float64 // the same for a trial whose tm is nearly zero (existNear)
 
 	// two-phase successive substitution
 	lnK, lnKp, dK1, dK2, K []float64
