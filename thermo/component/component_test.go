@@ -27,6 +27,7 @@ func mustLookup(t testing.TB, name string) Component {
 // file's version line) is changed and the new digest recorded here.
 var knownDigests = map[string]string{
 	"components-2026.1": "8f97d65dabb8d0edba61481c7bf012e4d6466045e3e81b6016af1e668baa0923",
+	"components-2026.2": "cf55e6453e80cc84789dacd2c811012b22211d9142fb89f0d6fa792c82f6d7f5",
 }
 
 func TestDataVersionTracksData(t *testing.T) {

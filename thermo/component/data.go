@@ -13,7 +13,7 @@ import (
 // interaction-parameter tables. It changes whenever a value in either table
 // changes; the data file carries the same string on its "version" line and
 // a test ties the version to a digest of both files.
-const DataVersion = "components-2026.1"
+const DataVersion = "components-2026.2"
 
 //go:embed data/components.txt
 var componentsFile string
