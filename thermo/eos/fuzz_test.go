@@ -241,16 +241,11 @@ func FuzzFugacity(f *testing.F) {
 			"SpeedOfSound": ptv.SpeedOfSound, "JouleThomson": ptv.JouleThomson, "Compressivity": ptv.Compressivity,
 			"DPDT": ptv.DPDT, "DPDV": ptv.DPDV, "HRes": ptv.HRes,
 		}
-		// Known defect, not yet fixed: where the equation of state gives a
+		// S, G, A and SRes stay finite where the equation of state gives a
 		// non-positive pressure at (T, v) (a liquid under tension, e.g.
-		// PR76 methane at 10⁻³ K and its liquid volume), PropertiesTV takes
-		// ln P and ln Z separately and returns S, G, A and SRes as NaN,
-		// while FugacityTV refuses such a volume. Until PropertiesTV either
-		// refuses it too or forms S from ln(v·P°/RT), those four are
-		// checked only at positive pressure.
-		if ptv.P > 0 {
-			tvVals["S"], tvVals["G"], tvVals["A"], tvVals["SRes"] = ptv.S, ptv.G, ptv.A, ptv.SRes
-		}
+		// PR76 methane at 10⁻³ K and its liquid volume): S is formed from
+		// ln(RT/(v·P°)), not from ln P and ln Z apart.
+		tvVals["S"], tvVals["G"], tvVals["A"], tvVals["SRes"] = ptv.S, ptv.G, ptv.A, ptv.SRes
 		checkAllFinite(t, tv, tvVals)
 		if _, err := mx.FugacityTV(ws, T, v, x, WantAll, fug); err != nil {
 			wantInput(t, tv, err)

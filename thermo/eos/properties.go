@@ -30,7 +30,7 @@ type Properties struct {
 	DPDT          float64 // (∂P/∂T)_v, Pa/K
 	DPDV          float64 // (∂P/∂v)_T, Pa·mol/m³
 	HRes          float64 // residual enthalpy H − H^ig(T), J/mol
-	SRes          float64 // residual entropy at T, P, J/(mol·K)
+	SRes          float64 // residual entropy at T, P, J/(mol·K) (at T, v where the model gives P ≤ 0)
 	Branch        Branch
 	Roots         int
 }
@@ -146,18 +146,27 @@ func (mx *Mixture) props(ws *Workspace) Properties {
 		cpig += xi * ws.cpg[i]
 		mix += xi * math.Log(xi)
 	}
-	sig -= R * (mix + math.Log(P/component.PRef))
 	Ur := -rt * T * st.FT
 	SrTV := -R * (T*st.FT + st.F)
 	Zeos := P * V / rt
 	Hr := Ur + P*V - rt
-	Sr := SrTV + R*math.Log(Zeos)
+	// S = S^ig(T, P) + S^r(T, P) with S^ig(T, P) = S°(T) − R Σx ln x −
+	// R ln(P/P°) and S^r(T, P) = S^r(T, V) + R ln Z: the ln P cancel, so S
+	// is formed from ln(RT/(V·P°)), which stays finite where the equation
+	// of state gives P ≤ 0 (a liquid under tension at fixed T, V). There
+	// the residual entropy at T, P is undefined and SRes is reported
+	// relative to the ideal gas at the same T and V.
+	sig -= R * (mix + math.Log(rt/(V*component.PRef)))
+	Sr := SrTV
+	if P > 0 {
+		Sr += R * math.Log(Zeos)
+	}
 	Cvr := -R * T * (2*st.FT + T*st.FTT)
 	cv := cpig - R + Cvr
 	cp := cv - T*st.dPdT*st.dPdT/st.dPdV
 	vt := V - st.cshift
 	h := hig + Hr - st.cshift*P
-	s := sig + Sr
+	s := sig + SrTV
 	p := Properties{
 		T: T, P: P,
 		Z:             P * vt / rt,
