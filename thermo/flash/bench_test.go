@@ -102,6 +102,44 @@ func BenchmarkFlashWarmTwoPhase(b *testing.B) {
 	benchmarkFlash(b, mx, z, 250, 5e6, 2, true)
 }
 
+// BenchmarkFlashWarmTwoPhaseNewT alternates between two states 0.5 K and
+// 0.5 % apart, each warm-started from a state 0.5 K and 0.5 % before it,
+// so that every flash meets a new temperature, as in a simulation whose
+// every timestep moves the stream: the attraction parameters a_ij(T) are
+// rebuilt in every call, which BenchmarkFlashWarmTwoPhase (one state
+// repeated) leaves out.
+func BenchmarkFlashWarmTwoPhaseNewT(b *testing.B) {
+	mx, z := benchGas(b)
+	ws, res := NewWorkspace(mx), NewResult(mx)
+	ctx := context.Background()
+	var states [2]struct {
+		T, P float64
+		est  Estimate
+	}
+	for k := range states {
+		T, P := 250+0.5*float64(k), 5e6*(1+0.005*float64(k))
+		prev := NewResult(mx)
+		if err := ws.PT(ctx, T-0.5, P*0.995, z, Options{}, nil, prev); err != nil {
+			b.Fatal(err)
+		}
+		states[k].T, states[k].P, states[k].est = T, P, prev.Estimate()
+	}
+	evals, k := 0, 0
+	b.ReportAllocs()
+	for b.Loop() {
+		s := &states[k]
+		if err := ws.PT(ctx, s.T, s.P, z, Options{}, &s.est, res); err != nil {
+			b.Fatal(err)
+		}
+		if res.Report.Path != PathWarm {
+			b.Fatalf("warm start took path %v", res.Report.Path)
+		}
+		evals += res.Report.LnPhiEvaluations
+		k ^= 1
+	}
+	b.ReportMetric(float64(evals)/float64(b.N), "lnphi/op")
+}
+
 func BenchmarkFlashThreePhaseWater(b *testing.B) {
 	mx, z := benchGasWater(b)
 	benchmarkFlash(b, mx, z, 310, 7e6, 3, false)
