@@ -250,92 +250,80 @@ func (c *client) batch(ctx context.Context, k kind, ss []*stream) {
 	c.rec.add(o)
 }
 
-func (c *client) flash(ctx context.Context, s *stream) {
-	req := &fugadv1.FlashRequest{Fluid: c.plant.fluid, State: s.state(c.cfg.warmStart), BypassCache: c.cfg.bypassCache}
-	o := &outcome{name: nameFlashTP, states: 1, reqBytes: proto.Size(req)}
-	if s.kind == kindPH {
-		o.name = nameFlashPH
-	}
+// reported is a response that carries a solver report.
+type reported interface {
+	proto.Message
+	GetReport() *fugadv1.SolverReport
+}
+
+// unary makes one call of a single-state method, times it and records the
+// outcome under name; report picks the solver report out of the answer.
+// It returns the answer, nil when the call failed.
+func unary[Req proto.Message, Resp proto.Message](ctx context.Context, c *client, name string, req Req,
+	call func(context.Context, Req, ...grpc.CallOption) (Resp, error), report func(Resp) *fugadv1.SolverReport) (Resp, bool) {
+	o := &outcome{name: name, states: 1, reqBytes: proto.Size(req)}
 	cctx, cancel := c.callCtx(ctx)
 	t0 := time.Now()
-	resp, err := c.api.Flash(cctx, req)
+	resp, err := call(cctx, req)
 	o.d = time.Since(t0)
 	cancel()
 	o.err = err
 	if err == nil {
 		o.okStates, o.respBytes = 1, proto.Size(resp)
-		if resp.GetResult().GetReport().GetFromCache() {
+		if report(resp).GetFromCache() {
 			o.hits = 1
 		}
-		if ws := resp.GetResult().GetWarmStart(); ws != nil {
-			s.warm = ws
-		}
-		c.rec.capture.flash(s.kind, resp)
 	}
 	c.rec.add(o)
+	return resp, err == nil
+}
+
+// ownReport is the report of a response that carries one itself.
+func ownReport[R reported](r R) *fugadv1.SolverReport { return r.GetReport() }
+
+func (c *client) flash(ctx context.Context, s *stream) {
+	req := &fugadv1.FlashRequest{Fluid: c.plant.fluid, State: s.state(c.cfg.warmStart), BypassCache: c.cfg.bypassCache}
+	name := nameFlashTP
+	if s.kind == kindPH {
+		name = nameFlashPH
+	}
+	resp, ok := unary(ctx, c, name, req, c.api.Flash, func(r *fugadv1.FlashResponse) *fugadv1.SolverReport { return r.GetResult().GetReport() })
+	if !ok {
+		return
+	}
+	if ws := resp.GetResult().GetWarmStart(); ws != nil {
+		s.warm = ws
+	}
+	c.rec.capture.flash(s.kind, resp)
 }
 
 func (c *client) saturation(ctx context.Context, s *stream) {
 	req := s.saturation(c.plant.fluid, c.cfg.warmStart)
 	req.BypassCache = c.cfg.bypassCache
-	o := &outcome{name: nameSat, states: 1, reqBytes: proto.Size(req)}
-	cctx, cancel := c.callCtx(ctx)
-	t0 := time.Now()
-	resp, err := c.api.SaturationPoint(cctx, req)
-	o.d = time.Since(t0)
-	cancel()
-	o.err = err
-	if err == nil {
-		o.okStates, o.respBytes = 1, proto.Size(resp)
-		if resp.GetReport().GetFromCache() {
-			o.hits = 1
-		}
-		if ws := resp.GetWarmStart(); ws != nil {
-			s.warm = ws
-		}
-		c.rec.capture.saturation(resp)
+	resp, ok := unary(ctx, c, nameSat, req, c.api.SaturationPoint, ownReport[*fugadv1.SaturationPointResponse])
+	if !ok {
+		return
 	}
-	c.rec.add(o)
+	if ws := resp.GetWarmStart(); ws != nil {
+		s.warm = ws
+	}
+	c.rec.capture.saturation(resp)
 }
 
 func (c *client) envelope(ctx context.Context, s *stream) {
 	req := s.envelope(c.plant.fluid)
 	req.BypassCache = c.cfg.bypassCache
-	o := &outcome{name: nameEnv, states: 1, reqBytes: proto.Size(req)}
-	cctx, cancel := c.callCtx(ctx)
-	t0 := time.Now()
-	resp, err := c.api.PhaseEnvelope(cctx, req)
-	o.d = time.Since(t0)
-	cancel()
-	o.err = err
-	if err == nil {
-		o.okStates, o.respBytes = 1, proto.Size(resp)
-		if resp.GetReport().GetFromCache() {
-			o.hits = 1
-		}
+	if resp, ok := unary(ctx, c, nameEnv, req, c.api.PhaseEnvelope, ownReport[*fugadv1.PhaseEnvelopeResponse]); ok {
 		c.rec.capture.envelope(resp)
 	}
-	c.rec.add(o)
 }
 
 func (c *client) fugacity(ctx context.Context, s *stream) {
 	req := s.fugacity(c.plant.fluid)
 	req.BypassCache = c.cfg.bypassCache
-	o := &outcome{name: nameFug, states: 1, reqBytes: proto.Size(req)}
-	cctx, cancel := c.callCtx(ctx)
-	t0 := time.Now()
-	resp, err := c.api.FugacityCoefficients(cctx, req)
-	o.d = time.Since(t0)
-	cancel()
-	o.err = err
-	if err == nil {
-		o.okStates, o.respBytes = 1, proto.Size(resp)
-		if resp.GetReport().GetFromCache() {
-			o.hits = 1
-		}
+	if resp, ok := unary(ctx, c, nameFug, req, c.api.FugacityCoefficients, ownReport[*fugadv1.FugacityCoefficientsResponse]); ok {
 		c.rec.capture.fugacity(resp)
 	}
-	c.rec.add(o)
 }
 
 // sample is one sampling interval of a run.
