@@ -2,7 +2,9 @@ package stateflash
 
 import (
 	"context"
+	"math"
 	"testing"
+	"time"
 
 	"github.com/fugad/fugad/thermo/eos"
 	"github.com/fugad/fugad/thermo/flash"
@@ -105,3 +107,81 @@ func BenchmarkTVTwoPhase(b *testing.B)        { benchmarkSpec(b, SpecTV, 250, 5e
 func BenchmarkUVSinglePhase(b *testing.B)     { benchmarkSpec(b, SpecUV, 350, 5e6, false) }
 func BenchmarkUVTwoPhase(b *testing.B)        { benchmarkSpec(b, SpecUV, 250, 5e6, false) }
 func BenchmarkUVWarmTwoPhase(b *testing.B)    { benchmarkSpec(b, SpecUV, 250, 5e6, true) }
+
+// benchmarkPHOverTP times the P–H flash and the T–P flash of benchGas at
+// the same states (T_k, P_k), cold, interleaved in one loop (alternating
+// which runs first) so that both see the same machine load, and reports
+// each one's mean time per flash and their ratio, P–H over T–P.
+func benchmarkPHOverTP(b *testing.B, T, P []float64) {
+	ctx := context.Background()
+	mx, z := benchGas(b)
+	fws, fr := flash.NewWorkspace(mx), flash.NewResult(mx)
+	H, nPhases := make([]float64, len(T)), make([]int, len(T))
+	for k := range T {
+		if err := fws.PT(ctx, T[k], P[k], z, flash.Options{}, nil, fr); err != nil {
+			b.Fatal(err)
+		}
+		H[k], nPhases[k] = fr.Overall.H, len(fr.Phases)
+	}
+	ws, r := NewWorkspace(mx), NewResult(mx)
+	var tTP, tPH time.Duration
+	k := 0
+	tp := func() {
+		t0 := time.Now()
+		err := fws.PT(ctx, T[k], P[k], z, flash.Options{}, nil, fr)
+		tTP += time.Since(t0)
+		if err != nil {
+			b.Fatal(err)
+		}
+	}
+	ph := func() {
+		t0 := time.Now()
+		err := ws.PH(ctx, P[k], H[k], z, Options{}, nil, r)
+		tPH += time.Since(t0)
+		if err != nil {
+			b.Fatal(err)
+		}
+	}
+	n, flashes := 0, 0
+	b.ReportAllocs()
+	for b.Loop() {
+		k = n % len(T)
+		if (n/len(T))%2 == 0 {
+			tp()
+			ph()
+		} else {
+			ph()
+			tp()
+		}
+		if len(r.Phases) != nPhases[k] || len(fr.Phases) != nPhases[k] {
+			b.Fatalf("at %g K, %g Pa P–H gave %d phases, T–P %d, want %d", T[k], P[k], len(r.Phases), len(fr.Phases), nPhases[k])
+		}
+		n++
+		flashes += r.Report.Flashes
+	}
+	b.ReportMetric(float64(tTP.Nanoseconds())/float64(n), "tp-ns/flash")
+	b.ReportMetric(float64(tPH.Nanoseconds())/float64(n), "ph-ns/flash")
+	b.ReportMetric(float64(tPH)/float64(tTP), "ph/tp")
+	b.ReportMetric(float64(flashes)/float64(n), "flashes/ph")
+}
+
+func BenchmarkPHOverTPSinglePhase(b *testing.B) {
+	benchmarkPHOverTP(b, []float64{350}, []float64{5e6})
+}
+
+func BenchmarkPHOverTPTwoPhase(b *testing.B) {
+	benchmarkPHOverTP(b, []float64{250}, []float64{5e6})
+}
+
+// BenchmarkPHOverTPGrid runs the states of a 6 × 4 grid, 200–400 K and
+// 1–10 MPa (one and two phases), in turn.
+func BenchmarkPHOverTPGrid(b *testing.B) {
+	var T, P []float64
+	for a := range 6 {
+		for c := range 4 {
+			T = append(T, 200+40*float64(a))
+			P = append(P, 1e6*math.Pow(10, float64(c)/3))
+		}
+	}
+	benchmarkPHOverTP(b, T, P)
+}

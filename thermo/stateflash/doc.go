@@ -92,7 +92,14 @@
 //
 // The single-phase seed stops one Newton step short: from a scaled
 // residual below 1e-5 the step is taken unevaluated and the T–P flash
-// that follows checks the specification.
+// that follows checks the specification. It stops earlier where Wilson's
+// K-values put the next temperature inside the two-phase region, unless
+// the residual predicted after that step (from the quadratic convergence
+// of Newton's method) shows that one more evaluation ends the solve, and
+// where repeated bisection shows that h(T) of the single phase jumps (the
+// root of lowest Gibbs energy switching between vapour and liquid). A
+// flash that then finds one phase hands its phase's properties back to
+// the single-phase solve, which finishes without stopping early.
 //
 // Pure components. With a single component present, the two-phase region
 // sits at one temperature for a given pressure (P–H, P–S: Tsat(P)) or one

@@ -77,7 +77,7 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 	T = math.Min(math.Max(T, ws.set.tmin), ws.set.tmax)
 	if fwarm == nil || fwarm.Phases <= 1 {
 		// Single-phase solve, then one flash to confirm it.
-		T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax, true)
+		T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax, seedEarly, nil)
 	}
 	ws.rep.OuterIterations++
 	ws.lazy = true
@@ -87,10 +87,11 @@ func (ws *Workspace) pressureSpec(ctx context.Context, spec Spec, P, val float64
 	if len(ws.fres.Phases) == 1 {
 		r := ws.pressureResid()
 		if r > ws.set.tol && ws.seedLoose {
-			// One phase after all: finish the single-phase solve and
-			// confirm it with another flash.
+			// One phase after all: finish the single-phase solve from
+			// the phase the flash found and confirm it with another
+			// flash.
 			ws.seedLoose = false
-			T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax, true)
+			T, _ = ws.singlePhaseT(T, ws.set.tmin, ws.set.tmax, seedPredict, &ws.fres.Phases[0].Props)
 			ws.rep.OuterIterations++
 			ws.haveEst = false
 			if err := ws.tp(T, P, nil); err != nil {
@@ -172,6 +173,20 @@ func (ws *Workspace) pressureResid() float64 {
 	return math.Abs(o.H-ws.o.val) / (eos.R * ws.fres.T)
 }
 
+// seedMode says where singlePhaseT may stop short of the tolerance.
+type seedMode int
+
+const (
+	// seedConverge: only at the tolerance.
+	seedConverge seedMode = iota
+	// seedPredict: also with the Newton step from a scaled residual below
+	// predictTol, returned unevaluated for a T–P flash to check.
+	seedPredict
+	// seedEarly: as seedPredict, and also where Wilson's K-values predict
+	// two phases (see looseTol) or the root of lowest Gibbs energy jumps.
+	seedEarly
+)
+
 // singlePhaseT solves the single-phase specification at fixed P on the
 // root of lowest Gibbs energy,
 //
@@ -179,21 +194,43 @@ func (ws *Workspace) pressureResid() float64 {
 //
 // by Newton's method with Cp (or Cp/T) inside the bracket [lo, hi],
 // bisecting when a step leaves it. It returns the last T and whether the
-// specification was met; with predict the Newton step from a residual
-// below predictTol is returned unevaluated (for a seed that a T–P flash
-// then checks).
-func (ws *Workspace) singlePhaseT(T, lo, hi float64, predict bool) (float64, bool) {
+// specification was met (or, by mode, the seed is good enough: see
+// seedMode). first, when not nil, holds the properties at T already (of
+// a single phase a T–P flash found there), which saves their evaluation.
+//
+// Near the solution the residual falls as r_{k+1} ≈ C·r_k², with
+// C = |F″|·scale/(2F′²) estimated from the change of F′ between the last
+// two points. With seedEarly the solve stops where Wilson's K-values put
+// the next temperature inside the two-phase region only while the
+// residual predicted after the next step, C·r², is above looseNext: one or
+// two more evaluations of the single phase cost less than the T–P flash
+// that an early stop wastes when the state has one phase after all.
+//
+// Where the root of lowest Gibbs energy switches between a vapour-like
+// and a liquid-like volume, h(T) jumps and the bracket closes on the jump
+// by bisection; with seedEarly the solve stops there after jumpBisections
+// bisections in a row (the jump lies inside the two-phase region).
+func (ws *Workspace) singlePhaseT(T, lo, hi float64, mode seedMode, first *eos.Properties) (float64, bool) {
+	tPrev, dFPrev := math.NaN(), math.NaN()
+	bisections := 0
 	for range 60 {
-		pr, err := ws.mx.Properties(ws.ews, T, ws.o.P, ws.z, eos.RootMinGibbs)
-		ws.rep.LnPhiEvaluations++
-		if err != nil {
-			return T, false
+		var pr eos.Properties
+		if first != nil {
+			pr, first = *first, nil
+		} else {
+			var err error
+			pr, err = ws.mx.Properties(ws.ews, T, ws.o.P, ws.z, eos.RootMinGibbs)
+			ws.rep.LnPhiEvaluations++
+			if err != nil {
+				return T, false
+			}
 		}
 		F, dF, scale := pr.H-ws.o.val, pr.Cp, eos.R*T
 		if ws.spec == SpecPS {
 			F, dF, scale = pr.S-ws.o.val, pr.Cp/T, eos.R
 		}
-		if math.Abs(F) <= ws.set.tol*scale {
+		r := math.Abs(F) / scale
+		if r <= ws.set.tol {
 			return T, true
 		}
 		if F < 0 {
@@ -201,26 +238,41 @@ func (ws *Workspace) singlePhaseT(T, lo, hi float64, predict bool) (float64, boo
 		} else {
 			hi = T
 		}
+		// C of the quadratic convergence, from F″ ≈ ΔF′/ΔT.
+		c := math.Inf(1)
+		if finite(tPrev) && T != tPrev && dF > 0 {
+			c = math.Abs((dF-dFPrev)/(T-tPrev)) * scale / (2 * dF * dF)
+		}
+		tPrev, dFPrev = T, dF
 		next := math.NaN()
 		if dF > 0 && finite(dF) {
 			step := -F / dF
 			step = math.Max(-0.25*T, math.Min(0.25*T, step))
 			next = T + step
 		}
-		if !(next > lo && next < hi) {
+		switch {
+		case !(next > lo && next < hi):
 			next = 0.5 * (lo + hi)
-		} else if predict && math.Abs(F) <= looseTol*scale && ws.wilsonTwoPhase(next) {
+			bisections++
+			if mode == seedEarly && bisections >= jumpBisections && r > looseTol {
+				// h(T) jumps inside [lo, hi]: the T–P flash there decides.
+				ws.seedLoose = true
+				return next, true
+			}
+		case mode == seedEarly && r <= looseTol && !(c*r*r <= looseNext) && ws.wilsonTwoPhase(next):
 			// Wilson's K-values put the feed inside the two-phase
 			// region here: the T–P flash that follows most likely finds
 			// two phases, for which a converged single-phase
 			// temperature is no better a start than this one.
-			ws.seedLoose = math.Abs(F) > predictTol*scale
+			ws.seedLoose = r > predictTol
 			return next, true
-		} else if predict && math.Abs(F) <= predictTol*scale {
+		case mode != seedConverge && r <= predictTol:
 			// Newton's method converges quadratically here: the step
 			// lands within the tolerance, which the T–P flash that
 			// follows checks (and the outer iteration corrects).
 			return next, true
+		default:
+			bisections = 0
 		}
 		if hi-lo <= 1e-13*T {
 			return T, false
@@ -236,10 +288,20 @@ func (ws *Workspace) singlePhaseT(T, lo, hi float64, predict bool) (float64, boo
 // of order one for h(T) and s(T) away from critical points.
 const predictTol = 1e-5
 
-// looseTol is the scaled residual at which the single-phase solve stops
+// looseTol is the scaled residual at which the single-phase solve may stop
 // early when Wilson's K-values (Wilson 1968) predict two phases at the
 // next temperature: the nested iteration then starts from that step.
-const looseTol = 0.3
+// looseNext is the residual predicted after the next step below which it
+// does not (ten times predictTol, so that a prediction near predictTol
+// does not cost a flash).
+const (
+	looseTol  = 0.3
+	looseNext = 10 * predictTol
+)
+
+// jumpBisections is the number of bisections in a row after which the
+// single-phase solve takes the bracket to hold a jump of h(T).
+const jumpBisections = 3
 
 // wilsonTwoPhase reports whether Wilson's K-values at (T, P) put the
 // feed between its bubble and dew points, Σ z_i K_i > 1 and

@@ -72,7 +72,7 @@ func (ws *Workspace) purePressure(res *Result) (bool, error) {
 	if !(lo < hi) {
 		return true, ws.rangeErrP(lo, val, xl, xv)
 	}
-	T, ok := ws.singlePhaseT(0.5*(lo+hi), lo, hi, false)
+	T, ok := ws.singlePhaseT(0.5*(lo+hi), lo, hi, seedConverge, nil)
 	if !ok {
 		if T-lo < 1e-9*T || hi-T < 1e-9*T {
 			return true, ws.rangeErrP(T, val, xl, xv)
