@@ -64,6 +64,8 @@ type Mixture struct {
 	hasK1  bool
 	shift  bool
 	kijSrc []string // n×n source per pair ("" when zero by default)
+	ig     []idealGas
+	qk     []float64 // n×n, √(ac_i ac_j)·(1 − k0_ij), for the pairs' a_ij(T)
 
 	kx      []kijTerm // pairs with a general k(T), applied after kij0, kij1
 	aq      *Mixture  // aqueous view (nil without an aqueous set)
@@ -112,6 +114,7 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 		mx.tc[i] = c.Tc
 		mx.mw[i] = c.MolarMass
 		mx.lnPc[i] = math.Log(c.Pc)
+		mx.ig = append(mx.ig, newIdealGas(c))
 		if opts.VolumeTranslation {
 			mx.c[i] = peneloux(model, c)
 		}
@@ -143,6 +146,12 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 			return nil, &InputError{Field: f("k1"), Value: o.K1, Reason: "must be finite with |k1| ≤ 0.01 1/K"}
 		}
 		mx.setKij(o.I, o.J, o.K0, o.K1, "override")
+	}
+	mx.qk = make([]float64, n*n)
+	for i := range n {
+		for j := range n {
+			mx.qk[i*n+j] = mx.sqac[i] * mx.sqac[j] * (1 - mx.kij0[i*n+j])
+		}
 	}
 	if err := mx.compileAqueous(opts.AqueousKij); err != nil {
 		return nil, err

@@ -129,9 +129,9 @@ func (mx *Mixture) props(ws *Workspace) Properties {
 	T, P, V := st.T, st.P, st.V
 	rt := R * T
 	if !ws.igOK || ws.igT != T {
+		lnT := math.Log(T)
 		for i := range mx.n {
-			c := &mx.comps[i]
-			ws.hig[i], ws.sig[i], ws.cpg[i] = c.HIG(T), c.SIG(T), c.CpIG(T)
+			ws.hig[i], ws.sig[i], ws.cpg[i] = mx.ig[i].at(T, lnT)
 		}
 		ws.igOK, ws.igT = true, T
 	}

@@ -98,24 +98,10 @@ func (ws *Workspace) setT(T float64) {
 		ws.hTT[i] = mx.m[i] / (4 * T * stc)
 		ws.ai[i] = mx.ac[i] * h * h
 	}
-	for i := range n {
-		hi, hTi, hTTi := ws.h[i], ws.hT[i], ws.hTT[i]
-		row := i * n
-		for j := i; j < n; j++ {
-			q := mx.sqac[i] * mx.sqac[j]
-			hj, hTj, hTTj := ws.h[j], ws.hT[j], ws.hTT[j]
-			s := q * hi * hj
-			sT := q * (hTi*hj + hi*hTj)
-			sTT := q * (hTTi*hj + 2*hTi*hTj + hi*hTTj)
-			k0, k1 := mx.kij0[row+j], mx.kij1[row+j]
-			omk := 1 - k0 - k1*T
-			a := omk * s
-			aT := omk*sT - k1*s
-			aTT := omk*sTT - 2*k1*sT
-			ws.aij[row+j], ws.aij[j*n+i] = a, a
-			ws.aijT[row+j], ws.aijT[j*n+i] = aT, aT
-			ws.aijTT[row+j], ws.aijTT[j*n+i] = aTT, aTT
-		}
+	if mx.hasK1 {
+		ws.pairsLinearK(T)
+	} else {
+		ws.pairsConstK()
 	}
 	// Pairs with a general k(T) (the aqueous set):
 	//	a = (1 − k)s,  a_T = (1 − k)s_T − k′s,  a_TT = (1 − k)s_TT − 2k′s_T − k″s.
@@ -138,4 +124,56 @@ func (ws *Workspace) setT(T float64) {
 	}
 	ws.t = T
 	ws.tValid = true
+}
+
+// pairsConstK sets a_ij and its T derivatives when every k_ij is
+// constant: a_ij = q_ij·h_i·h_j with q_ij = √(ac_i ac_j)·(1 − k_ij)
+// prepared by NewMixture.
+func (ws *Workspace) pairsConstK() {
+	mx := ws.mx
+	n := mx.n
+	h, hT, hTT := ws.h[:n], ws.hT[:n], ws.hTT[:n]
+	for i := range n {
+		hi, hTi, hTTi := h[i], hT[i], hTT[i]
+		row := i * n
+		q := mx.qk[row : row+n]
+		for j := i; j < n; j++ {
+			hj, hTj := h[j], hT[j]
+			a := q[j] * hi * hj
+			aT := q[j] * (hTi*hj + hi*hTj)
+			aTT := q[j] * (hTTi*hj + 2*hTi*hTj + hi*hTT[j])
+			ws.aij[row+j], ws.aij[j*n+i] = a, a
+			ws.aijT[row+j], ws.aijT[j*n+i] = aT, aT
+			ws.aijTT[row+j], ws.aijTT[j*n+i] = aTT, aTT
+		}
+	}
+}
+
+// pairsLinearK sets a_ij and its T derivatives with k_ij(T) = k0 + k1·T:
+//
+//	a = (1 − k)s,  a_T = (1 − k)s_T − k1·s,  a_TT = (1 − k)s_TT − 2k1·s_T,
+//
+// s = √(ac_i ac_j)·h_i·h_j.
+func (ws *Workspace) pairsLinearK(T float64) {
+	mx := ws.mx
+	n := mx.n
+	for i := range n {
+		hi, hTi, hTTi := ws.h[i], ws.hT[i], ws.hTT[i]
+		row := i * n
+		for j := i; j < n; j++ {
+			q := mx.sqac[i] * mx.sqac[j]
+			hj, hTj, hTTj := ws.h[j], ws.hT[j], ws.hTT[j]
+			s := q * hi * hj
+			sT := q * (hTi*hj + hi*hTj)
+			sTT := q * (hTTi*hj + 2*hTi*hTj + hi*hTTj)
+			k0, k1 := mx.kij0[row+j], mx.kij1[row+j]
+			omk := 1 - k0 - k1*T
+			a := omk * s
+			aT := omk*sT - k1*s
+			aTT := omk*sTT - 2*k1*sT
+			ws.aij[row+j], ws.aij[j*n+i] = a, a
+			ws.aijT[row+j], ws.aijT[j*n+i] = aT, aT
+			ws.aijTT[row+j], ws.aijTT[j*n+i] = aTT, aTT
+		}
+	}
 }
