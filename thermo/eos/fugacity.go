@@ -3,6 +3,8 @@ package eos
 import (
 	"fmt"
 	"math"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // RootChoice says which root of the cubic a phase evaluation uses.
@@ -400,8 +402,8 @@ func (mx *Mixture) solveZ(ws *Workspace, T, P float64, root RootChoice) {
 //	Zl − Zv − ln((Zl − B)/(Zv − B))
 //	  − A/(B(δ1 − δ2))·ln((Zl + δ1B)(Zv + δ2B)/((Zl + δ2B)(Zv + δ1B))).
 func gresDiff(zl, zv, A, B, d1, d2 float64) float64 {
-	return zl - zv - math.Log((zl-B)/(zv-B)) -
-		A/(B*(d1-d2))*math.Log((zl+d1*B)*(zv+d2*B)/((zl+d2*B)*(zv+d1*B)))
+	return zl - zv - fastmath.Log((zl-B)/(zv-B)) -
+		A/(B*(d1-d2))*fastmath.Log((zl+d1*B)*(zv+d2*B)/((zl+d2*B)*(zv+d1*B)))
 }
 
 // residual evaluates F = A^r/(nRT) and the volume and temperature
@@ -419,8 +421,8 @@ func (mx *Mixture) residual(ws *Workspace, tv bool) {
 	d1, d2 := mx.p.d1, mx.p.d2
 	v1, v2 := V+d1*Bm, V+d2*Bm
 	vb := V - Bm
-	g := math.Log(1 - Bm/V)
-	f := math.Log(v1/v2) / (R * Bm * (d1 - d2))
+	g := fastmath.Log(1 - Bm/V)
+	f := fastmath.Log(v1/v2) / (R * Bm * (d1 - d2))
 	fV := -1 / (R * v1 * v2)
 	fB := -(f + V*fV) / Bm
 	fVV := (1/(v2*v2) - 1/(v1*v1)) / (R * Bm * (d1 - d2))
@@ -465,7 +467,7 @@ func (mx *Mixture) lnPhi(ws *Workspace, want Want, out *Fugacity) {
 	gB := -1 / vb
 	FB := -gB - D/T*fB // n = 1
 	FD := -f / T
-	lnZ := math.Log(st.Z)
+	lnZ := fastmath.Log(st.Z)
 	shift := mx.shift
 	pOverRT := P / rt
 	// Slices and constants in locals: the stores into out would otherwise

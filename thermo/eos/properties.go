@@ -5,6 +5,8 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/component"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // Properties are the thermodynamic properties of one phase (or of a
@@ -129,7 +131,7 @@ func (mx *Mixture) props(ws *Workspace) Properties {
 	T, P, V := st.T, st.P, st.V
 	rt := R * T
 	if !ws.igOK || ws.igT != T {
-		lnT := math.Log(T)
+		lnT := fastmath.Log(T)
 		for i := range mx.n {
 			ws.hig[i], ws.sig[i], ws.cpg[i] = mx.ig[i].at(T, lnT)
 		}
@@ -144,7 +146,7 @@ func (mx *Mixture) props(ws *Workspace) Properties {
 		hig += xi * ws.hig[i]
 		sig += xi * ws.sig[i]
 		cpig += xi * ws.cpg[i]
-		mix += xi * math.Log(xi)
+		mix += xi * fastmath.Log(xi)
 	}
 	Ur := -rt * T * st.FT
 	SrTV := -R * (T*st.FT + st.F)
@@ -156,10 +158,10 @@ func (mx *Mixture) props(ws *Workspace) Properties {
 	// of state gives P ≤ 0 (a liquid under tension at fixed T, V). There
 	// the residual entropy at T, P is undefined and SRes is reported
 	// relative to the ideal gas at the same T and V.
-	sig -= R * (mix + math.Log(rt/(V*component.PRef)))
+	sig -= R * (mix + fastmath.Log(rt/(V*component.PRef)))
 	Sr := SrTV
 	if P > 0 {
-		Sr += R * math.Log(Zeos)
+		Sr += R * fastmath.Log(Zeos)
 	}
 	Cvr := -R * T * (2*st.FT + T*st.FTT)
 	cv := cpig - R + Cvr

@@ -6,6 +6,8 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/eos"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // begin validates a state and prepares the workspace for it.
@@ -35,7 +37,7 @@ func (ws *Workspace) begin(ctx context.Context, set settings, rep *Report, T, P 
 		ws.z[i] = v / s
 		if ws.z[i] > 0 {
 			ws.act = append(ws.act, i)
-			ws.lnz[i] = math.Log(ws.z[i])
+			ws.lnz[i] = fastmath.Log(ws.z[i])
 		}
 	}
 	if err := ws.mx.CheckState(ws.ews, T, P, ws.z); err != nil {
@@ -164,7 +166,7 @@ func (ws *Workspace) copyWarm(e *Estimate) (int, error) {
 				return 0, &InputError{Field: fmt.Sprintf("warm.LnK[%d]", i), Value: v, Reason: "must be finite"}
 			}
 			// Store K as the pair of compositions (K_i, 1) up to scale.
-			ws.warmX[0][i] = math.Exp(max(-700, min(700, v)))
+			ws.warmX[0][i] = fastmath.Exp(max(-700, min(700, v)))
 			ws.warmX[1][i] = 1
 		}
 	default:
@@ -278,7 +280,7 @@ func (ws *Workspace) warmSolve(k int, e *Estimate, verify bool) (bool, error) {
 	var err error
 	if k == 2 {
 		for _, i := range ws.act {
-			ws.lnK[i] = math.Log(max(ws.warmX[0][i], tiny) / max(ws.warmX[1][i], tiny))
+			ws.lnK[i] = fastmath.Log(max(ws.warmX[0][i], tiny) / max(ws.warmX[1][i], tiny))
 		}
 		if ws.warmShift {
 			for _, i := range ws.act {
@@ -633,7 +635,7 @@ func (ws *Workspace) fill(res *Result, path Path, converged bool) {
 			if converged && first.X[i] > tiny && last.X[i] > tiny {
 				res.LnK[i] = lf[i] - ll[i]
 			} else {
-				res.LnK[i] = math.Log(first.X[i]) - math.Log(last.X[i])
+				res.LnK[i] = fastmath.Log(first.X[i]) - fastmath.Log(last.X[i])
 			}
 			if !finite(res.LnK[i]) {
 				res.LnK[i] = last.LnPhi[i] - first.LnPhi[i]

@@ -1,6 +1,10 @@
 package flash
 
-import "math"
+import (
+	"math"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
+)
 
 // rrStatus says what the Rachford–Rice solve found.
 type rrStatus int
@@ -125,7 +129,7 @@ func multiphaseSplit(z, e, Ei []float64, act []int, m int, beta []float64) (int,
 			for k := range m {
 				E += b[k] * e[i*st+k]
 			}
-			s -= z[i] * math.Log(E)
+			s -= z[i] * fastmath.Log(E)
 		}
 		return s
 	}

@@ -4,6 +4,8 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/eos"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // splitStatus says how a phase-split solve ended.
@@ -77,7 +79,7 @@ func (ws *Workspace) evalAll(want eos.Want) error {
 // x_i0/x_i1, starting from β0 = start. It reports the RR status.
 func (ws *Workspace) setTwoFromK(start float64) rrStatus {
 	for _, i := range ws.act {
-		ws.K[i] = math.Exp(ws.lnK[i])
+		ws.K[i] = fastmath.Exp(ws.lnK[i])
 	}
 	b, it, st := rachfordRice(ws.z, ws.K, ws.act, start)
 	ws.rep.RRIterations += it
@@ -399,7 +401,7 @@ func (ws *Workspace) ssMulti(want eos.Want) error {
 			c = min(c, ws.ph[k].f.LnPhi[i])
 		}
 		for k := range m {
-			ws.e[i*st+k] = math.Exp(c - ws.ph[k].f.LnPhi[i])
+			ws.e[i*st+k] = fastmath.Exp(c - ws.ph[k].f.LnPhi[i])
 		}
 	}
 	for k := range m {

@@ -6,6 +6,8 @@ import (
 
 	"github.com/fugad/fugad/thermo/component"
 	"github.com/fugad/fugad/thermo/eos"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // Stability criteria (dimensionless).
@@ -233,7 +235,7 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 				lnW[i] = lnPureMinor + ws.lnz[i]
 			}
 		}
-		W[i] = math.Exp(lnW[i])
+		W[i] = fastmath.Exp(lnW[i])
 	}
 	wbest := ws.trialW[t]
 	bestTPD := math.Inf(1)
@@ -272,7 +274,7 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		}
 		lp := ws.tf.LnPhi[:n]
 		tpd, tm, res := 0.0, 1.0, 0.0
-		lsw := math.Log(sw)
+		lsw := fastmath.Log(sw)
 		for _, i := range act {
 			r := lnW[i] + lp[i] - d[i]
 			lnWn[i] = r
@@ -333,7 +335,7 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 		if !newton {
 			for _, i := range act {
 				lnW[i] -= lnWn[i]
-				W[i] = math.Exp(lnW[i])
+				W[i] = fastmath.Exp(lnW[i])
 			}
 			if it+1 >= stabSS {
 				// The next evaluation brings the derivatives for Newton.
@@ -348,7 +350,7 @@ func (ws *Workspace) runTrial(t int, lnRef []float64, nExist int) (float64, bool
 			newton = false
 			for _, i := range act {
 				lnW[i] -= lnWn[i]
-				W[i] = math.Exp(lnW[i])
+				W[i] = fastmath.Exp(lnW[i])
 			}
 		}
 	}
@@ -419,6 +421,6 @@ func (ws *Workspace) alphaStep(t float64) {
 			a = 0.1 * ws.Wp[i]
 		}
 		ws.W[i] = max(a*a/4, tiny)
-		ws.lnW[i] = math.Log(ws.W[i])
+		ws.lnW[i] = fastmath.Log(ws.W[i])
 	}
 }

@@ -2,10 +2,11 @@ package flash
 
 import (
 	"context"
-	"math"
 
 	"github.com/fugad/fugad/thermo/component"
 	"github.com/fugad/fugad/thermo/eos"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // maxTrials bounds the trial phases of one stability test: two Wilson
@@ -244,7 +245,7 @@ const tiny = 1e-300
 
 func safeLog(x float64) float64 {
 	if x < tiny {
-		return math.Log(tiny)
+		return fastmath.Log(tiny)
 	}
-	return math.Log(x)
+	return fastmath.Log(x)
 }
