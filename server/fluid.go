@@ -87,6 +87,19 @@ type fluidCheck struct {
 func (s *Server) checkFluid(v *violations, prefix string, fl *fugadv1.Fluid) fluidCheck {
 	var fc fluidCheck
 	if fl != nil && (s.fluids != nil || s.results != nil) {
+		// A fluid the wire codec decoded from bytes it had seen comes with
+		// its encoding (see codec.go).
+		if def, ok := s.memo.def(fl); ok {
+			if s.fluids != nil {
+				if cf, ok := s.fluids.get(def); ok {
+					fc.cf = cf
+					return fc
+				}
+			}
+			fc.def = def
+			fc.model, fc.comps, fc.opts = s.resolveFluid(v, prefix, fl)
+			return fc
+		}
 		// The encoding is built in a pooled buffer: on a compiled-fluid hit
 		// the compiled fluid carries its own copy, so nothing is allocated.
 		bp := defBuffers.Get().(*[]byte)

@@ -108,6 +108,9 @@ func NewHost(srv *Server, reg prometheus.Registerer, opts HostOptions) (*Host, e
 		// never reach the interceptors, so they appear in
 		// fugad_shed_total, not in the grpc_server_* metrics or the log.
 		grpc.InTapHandle(srv.admit),
+		// The proto encoding, with recurring fluids decoded once: see
+		// codec.go.
+		grpc.ForceServerCodecV2(newWireCodec(srv.memo)),
 		grpc.ChainUnaryInterceptor(srv.admittedUnary, gm.UnaryServerInterceptor(), srv.logUnary, srv.recoverUnary, srv.deadlineUnary),
 		grpc.ChainStreamInterceptor(gm.StreamServerInterceptor(), srv.logStream, srv.recoverStream),
 	}

@@ -67,6 +67,8 @@ type Server struct {
 	// fluids and results are the caches; nil means no caching.
 	fluids  fluidStore
 	results resultStore
+	// memo holds the fluids the wire codec decoded (see codec.go).
+	memo *fluidMemo
 	// cacheVersion (data and model version) starts every cache key.
 	cacheVersion string
 	// directEncoding selects appendFlashResult for T–P answers: the
@@ -105,6 +107,7 @@ func New(cfg Config, log *zap.Logger, reg prometheus.Registerer) (*Server, error
 		log:     log,
 		metrics: m,
 		pool:    newSolverPool(cfg.MaxConcurrentSolves),
+		memo:    newFluidMemo(),
 	}
 	s.newGates()
 	s.cacheVersion = cfg.DataVersion + "/" + cfg.ModelVersion
