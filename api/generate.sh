@@ -22,7 +22,7 @@ out="${1:-$root}"
 want_protoc="libprotoc 3.21.12"
 
 if ! command -v protoc >/dev/null 2>&1; then
-	echo "generate.sh: protoc not found; install it with: apt-get install -y protobuf-compiler" >&2
+	echo "generate.sh: protoc not found; install it with: apt-get install -y protobuf-compiler libprotobuf-dev" >&2
 	exit 1
 fi
 have_protoc="$(protoc --version)"

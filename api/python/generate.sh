@@ -7,7 +7,7 @@
 #
 # Generators come from the operating system's packages, whose versions are
 # pinned below (Debian 12):
-#   apt-get install -y protobuf-compiler protobuf-compiler-grpc
+#   apt-get install -y protobuf-compiler libprotobuf-dev protobuf-compiler-grpc
 # The code they produce runs on Debian's python3-protobuf and python3-grpcio
 # of the same releases.
 #
@@ -41,7 +41,7 @@ case "${1:-}" in
 esac
 
 if ! command -v protoc >/dev/null 2>&1; then
-	echo "generate.sh: protoc not found; install it with: apt-get install -y protobuf-compiler" >&2
+	echo "generate.sh: protoc not found; install it with: apt-get install -y protobuf-compiler libprotobuf-dev" >&2
 	exit 1
 fi
 plugin="$(command -v grpc_python_plugin || true)"
