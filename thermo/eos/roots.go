@@ -12,10 +12,7 @@ import "math"
 // cancellation error of the closed forms. It returns 1 or 3 and writes the
 // roots in ascending order; with one root, only roots[0] is set.
 func cubicRoots(A, B, d1, d2 float64, roots *[3]float64) int {
-	u, w := d1+d2, d1*d2
-	c2 := -(1 + (1-u)*B)
-	c1 := A + w*B*B - u*B - u*B*B
-	c0 := -(A*B + w*B*B + w*B*B*B)
+	c2, c1, c0 := cubicCoefficients(A, B, d1, d2)
 	p := c1 - c2*c2/3
 	q := 2*c2*c2*c2/27 - c2*c1/3 + c0
 	shift := -c2 / 3
@@ -51,6 +48,63 @@ func cubicRoots(A, B, d1, d2 float64, roots *[3]float64) int {
 	for k := range nr {
 		z[k] = polish(z[k], c2, c1, c0)
 	}
+	return aboveB(&z, nr, B, roots)
+}
+
+// cubicCoefficients returns c2, c1, c0 of the cubic of cubicRoots.
+func cubicCoefficients(A, B, d1, d2 float64) (c2, c1, c0 float64) {
+	u, w := d1+d2, d1*d2
+	return -(1 + (1-u)*B), A + w*B*B - u*B - u*B*B, -(A*B + w*B*B + w*B*B*B)
+}
+
+// cubicRootsFrom is cubicRoots by another route: Newton's method on the
+// cubic from z0 (the root of a nearby state) to one root, then the other
+// two, when real, from the quadratic left by deflating it,
+//
+//	Z³ + c2Z² + c1Z + c0 = (Z − r)(Z² + (c2 + r)Z + c1 + (c2 + r)r),
+//
+// solved without cancellation and polished on the cubic as cubicRoots
+// polishes its roots. It returns 0, leaving roots unset, when Newton's
+// method has not converged to round-off within eight steps (a double
+// root, a start at an extremum): the caller then takes the closed form.
+func cubicRootsFrom(A, B, d1, d2, z0 float64, roots *[3]float64) int {
+	c2, c1, c0 := cubicCoefficients(A, B, d1, d2)
+	r := z0
+	ok := false
+	for range 8 {
+		f := ((r+c2)*r+c1)*r + c0
+		df := (3*r+2*c2)*r + c1
+		if df == 0 || !(math.Abs(r) < 1e300) {
+			return 0
+		}
+		dz := f / df
+		r -= dz
+		if math.Abs(dz) <= 1e-15*math.Abs(r) {
+			ok = true
+			break
+		}
+	}
+	if !ok || !(r > 0) {
+		return 0
+	}
+	var z [3]float64
+	z[0] = r
+	nr := 1
+	b1 := c2 + r
+	b0 := c1 + b1*r
+	if disc := b1*b1 - 4*b0; disc >= 0 {
+		q := -0.5 * (b1 + math.Copysign(math.Sqrt(disc), b1))
+		if q != 0 {
+			z[1], z[2] = polish(q, c2, c1, c0), polish(b0/q, c2, c1, c0)
+			nr = 3
+		}
+	}
+	return aboveB(&z, nr, B, roots)
+}
+
+// aboveB writes the roots z[:nr] that lie above B into roots, ascending,
+// and returns their number as cubicRoots does (1 or 3).
+func aboveB(z *[3]float64, nr int, B float64, roots *[3]float64) int {
 	// Keep roots above B, ascending.
 	m := 0
 	for k := range nr {

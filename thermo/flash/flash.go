@@ -32,6 +32,7 @@ func (ws *Workspace) begin(ctx context.Context, set settings, rep *Report, T, P 
 		return &InputError{Field: field, Value: s, Reason: "composition must have a positive, finite sum"}
 	}
 	ws.ctx, ws.set, ws.rep, ws.T, ws.P = ctx, set, rep, T, P
+	ws.resetHints()
 	ws.act = ws.act[:0]
 	for i, v := range z {
 		ws.z[i] = v / s

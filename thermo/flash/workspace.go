@@ -171,7 +171,23 @@ func NewWorkspace(mx *eos.Mixture) *Workspace {
 		ws.aq = mx.Aqueous()
 		ws.aws = ws.aq.NewWorkspace()
 	}
+	// Successive evaluations of a phase slot or of the trial phase are of
+	// nearby compositions: their roots are searched from the last one
+	// (eos.Fugacity.UseRootHint), and begin forgets the hints.
+	ws.tf.UseRootHint(true)
+	for k := range ws.ph {
+		ws.ph[k].f.UseRootHint(true)
+	}
 	return ws
+}
+
+// resetHints forgets the root hints of every evaluation slot, so that a
+// solve depends on its inputs only.
+func (ws *Workspace) resetHints() {
+	ws.tf.ResetRootHint()
+	for k := range ws.ph {
+		ws.ph[k].f.ResetRootHint()
+	}
 }
 
 // aqueous reports whether composition x (mole fractions) is evaluated on
