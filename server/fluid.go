@@ -88,8 +88,21 @@ func (s *Server) checkFluid(v *violations, prefix string, fl *fugadv1.Fluid) flu
 	var fc fluidCheck
 	if fl != nil && (s.fluids != nil || s.results != nil) {
 		// A fluid the wire codec decoded from bytes it had seen comes with
-		// its encoding (see codec.go).
-		if def, ok := s.memo.def(fl); ok {
+		// its encoding (see codec.go), shared and read-only. Any other is
+		// encoded into a pooled buffer: on a compiled-fluid hit the
+		// compiled fluid carries its own copy, so nothing is allocated.
+		def, memo := s.memo.def(fl)
+		if !memo {
+			bp := defBuffers.Get().(*[]byte)
+			defer defBuffers.Put(bp)
+			var err error
+			if def, err = (proto.MarshalOptions{Deterministic: true}).MarshalAppend((*bp)[:0], fl); err != nil {
+				def = nil
+			} else {
+				*bp = def
+			}
+		}
+		if def != nil {
 			if s.fluids != nil {
 				if cf, ok := s.fluids.get(def); ok {
 					fc.cf = cf
@@ -97,25 +110,10 @@ func (s *Server) checkFluid(v *violations, prefix string, fl *fugadv1.Fluid) flu
 				}
 			}
 			fc.def = def
-			fc.model, fc.comps, fc.opts = s.resolveFluid(v, prefix, fl)
-			return fc
-		}
-		// The encoding is built in a pooled buffer: on a compiled-fluid hit
-		// the compiled fluid carries its own copy, so nothing is allocated.
-		bp := defBuffers.Get().(*[]byte)
-		def, err := proto.MarshalOptions{Deterministic: true}.MarshalAppend((*bp)[:0], fl)
-		if err == nil {
-			*bp = def
-			if s.fluids != nil {
-				if cf, ok := s.fluids.get(def); ok {
-					defBuffers.Put(bp)
-					fc.cf = cf
-					return fc
-				}
+			if !memo {
+				fc.def = append([]byte(nil), def...)
 			}
-			fc.def = append([]byte(nil), def...)
 		}
-		defBuffers.Put(bp)
 	}
 	fc.model, fc.comps, fc.opts = s.resolveFluid(v, prefix, fl)
 	return fc

@@ -100,6 +100,25 @@ func flashOptions(o *fugadv1.SolverOptions) flash.Options {
 	return flash.Options{Tolerance: o.GetTolerance(), MaxIterations: int(o.GetMaxIterations())}
 }
 
+// runPT runs the job's T–P flash in sc and maps a failure onto the wire's
+// errors (see solveTP).
+func (s *Server) runPT(ctx context.Context, job *flashJob, sc *flashScratch) error {
+	T, P := job.a, job.b
+	opts := flashOptions(job.opts)
+	if s.flashOptionsHook != nil {
+		s.flashOptionsHook(&opts)
+	}
+	err := sc.ws.PT(ctx, T, P, job.x, opts, sc.estimate(job.warm), sc.res)
+	if err == nil {
+		return nil
+	}
+	var ce *flash.ConvergenceError
+	if errors.As(err, &ce) {
+		return s.flashNotConverged(ce, sc.res, T, P, opts, job)
+	}
+	return s.flashError(err, job)
+}
+
 // solveTP is the translation of a T–P flash onto flash.Workspace.PT: the
 // job's temperature, pressure, composition, options and warm start in,
 // a FlashResult out. Non-convergence becomes ABORTED/NOT_CONVERGED with the
@@ -109,17 +128,8 @@ func (s *Server) solveTP(ctx context.Context, job *flashJob) (*fugadv1.FlashResu
 	cf := job.fluid
 	sc := cf.getFlash()
 	defer cf.putFlash(sc)
-	T, P := job.a, job.b
-	opts := flashOptions(job.opts)
-	if s.flashOptionsHook != nil {
-		s.flashOptionsHook(&opts)
-	}
-	if err := sc.ws.PT(ctx, T, P, job.x, opts, sc.estimate(job.warm), sc.res); err != nil {
-		var ce *flash.ConvergenceError
-		if errors.As(err, &ce) {
-			return nil, s.flashNotConverged(ce, sc.res, T, P, opts, job)
-		}
-		return nil, s.flashError(err, job)
+	if err := s.runPT(ctx, job, sc); err != nil {
+		return nil, err
 	}
 	res := s.flashResult(sc.res, s.flashReport(&sc.res.Report, job.quant), true)
 	if res == nil {
@@ -141,17 +151,8 @@ func (s *Server) solveTPEncoded(ctx context.Context, job *flashJob) ([]byte, err
 	cf := job.fluid
 	sc := cf.getFlash()
 	defer cf.putFlash(sc)
-	T, P := job.a, job.b
-	opts := flashOptions(job.opts)
-	if s.flashOptionsHook != nil {
-		s.flashOptionsHook(&opts)
-	}
-	if err := sc.ws.PT(ctx, T, P, job.x, opts, sc.estimate(job.warm), sc.res); err != nil {
-		var ce *flash.ConvergenceError
-		if errors.As(err, &ce) {
-			return nil, s.flashNotConverged(ce, sc.res, T, P, opts, job)
-		}
-		return nil, s.flashError(err, job)
+	if err := s.runPT(ctx, job, sc); err != nil {
+		return nil, err
 	}
 	w := &sc.wire
 	s.fillReport(&sc.res.Report, job.quant, &w.report)

@@ -56,7 +56,8 @@
 //     cyclohexane);
 //   - interaction parameters: Knapp et al. (1982), DECHEMA Chemistry Data
 //     Series VI; Nishiumi, Arai & Takeuchi (1988), Fluid Phase Equilib.
-//     42:43; Peng & Robinson (1980), ACS Symp. Ser. 133 (water pairs).
+//     42:43; Peng & Robinson (1980), ACS Symp. Ser. 133 (water pairs;
+//     series number from memory).
 //
 // The Kesler–Lee Cp reproduces n-alkanes within about 2.5 % and
 // aromatics within about 6 % over 300–900 K, but naphthenes only within

@@ -55,7 +55,8 @@ import (
 //   - Peng, D.-Y., Robinson, D.B.: Two- and three-phase equilibrium
 //     calculations for coal gasification and related processes. In:
 //     Newman, S.A. (ed.) Thermodynamics of Aqueous Systems with Industrial
-//     Applications, ACS Symp. Ser. 133, 393–414 (1980).
+//     Applications, ACS Symp. Ser. 133, 393–414 (1980) (series and pages from
+//     memory).
 //   - Søreide, I., Whitson, C.H.: Peng–Robinson predictions for
 //     hydrocarbons, CO2, N2, and H2S with pure water and NaCl brine.
 //     Fluid Phase Equilib. 77, 217–240 (1992).

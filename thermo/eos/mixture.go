@@ -87,7 +87,7 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 		comps: append([]component.Component(nil), comps...),
 		ac:    make([]float64, n), b: make([]float64, n), m: make([]float64, n),
 		tc: make([]float64, n), sqac: make([]float64, n), c: make([]float64, n),
-		mw: make([]float64, n), lnPc: make([]float64, n),
+		mw: make([]float64, n), lnPc: make([]float64, n), ig: make([]idealGas, n),
 		kij0: make([]float64, n*n), kij1: make([]float64, n*n), kijSrc: make([]string, n*n),
 		shift: opts.VolumeTranslation,
 	}
@@ -114,7 +114,7 @@ func NewMixture(model Model, comps []component.Component, opts Options) (*Mixtur
 		mx.tc[i] = c.Tc
 		mx.mw[i] = c.MolarMass
 		mx.lnPc[i] = math.Log(c.Pc)
-		mx.ig = append(mx.ig, newIdealGas(c))
+		mx.ig[i] = newIdealGas(c)
 		if opts.VolumeTranslation {
 			mx.c[i] = peneloux(model, c)
 		}

@@ -69,21 +69,7 @@ func cubicCoefficients(A, B, d1, d2 float64) (c2, c1, c0 float64) {
 // root, a start at an extremum): the caller then takes the closed form.
 func cubicRootsFrom(A, B, d1, d2, z0 float64, roots *[3]float64) int {
 	c2, c1, c0 := cubicCoefficients(A, B, d1, d2)
-	r := z0
-	ok := false
-	for range 8 {
-		f := ((r+c2)*r+c1)*r + c0
-		df := (3*r+2*c2)*r + c1
-		if df == 0 || !(math.Abs(r) < 1e300) {
-			return 0
-		}
-		dz := f / df
-		r -= dz
-		if math.Abs(dz) <= 1e-15*math.Abs(r) {
-			ok = true
-			break
-		}
-	}
+	r, ok := newtonCubic(z0, c2, c1, c0, 8)
 	if !ok || !(r > 0) {
 		return 0
 	}
@@ -152,17 +138,26 @@ func sort3(r *[3]float64) {
 
 // polish takes up to three Newton steps on Z³ + c2Z² + c1Z + c0.
 func polish(z, c2, c1, c0 float64) float64 {
-	for range 3 {
+	z, _ = newtonCubic(z, c2, c1, c0, 3)
+	return z
+}
+
+// newtonCubic takes up to steps Newton steps on Z³ + c2Z² + c1Z + c0 from
+// z and reports whether the last one was of round-off size (|ΔZ| ≤
+// 1e-15·|Z|); it stops, unconverged, where the derivative vanishes. A
+// non-finite z stays non-finite and unconverged.
+func newtonCubic(z, c2, c1, c0 float64, steps int) (float64, bool) {
+	for range steps {
 		f := ((z+c2)*z+c1)*z + c0
 		df := (3*z+2*c2)*z + c1
 		if df == 0 {
-			break
+			return z, false
 		}
 		dz := f / df
 		z -= dz
 		if math.Abs(dz) <= 1e-15*math.Abs(z) {
-			break
+			return z, true
 		}
 	}
-	return z
+	return z, false
 }

@@ -259,9 +259,12 @@ func (ws *Workspace) stop() error {
 // z_i > 0 that underflows in one phase keeps a finite ln x.
 const tiny = 1e-300
 
+// lnTiny is ln tiny, the logarithm safeLog gives below the floor.
+var lnTiny = fastmath.Log(tiny)
+
 func safeLog(x float64) float64 {
 	if x < tiny {
-		return fastmath.Log(tiny)
+		return lnTiny
 	}
 	return fastmath.Log(x)
 }

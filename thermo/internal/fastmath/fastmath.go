@@ -15,7 +15,8 @@
 // NaN, and for Exp |x| > 700) is passed to the math package, so special
 // values come out as math.Log and math.Exp give them.
 //
-// References:
+// References (volume and page numbers from memory, not checked against
+// the journal):
 //   - Tang, P.T.P.: Table-driven implementation of the exponential
 //     function in IEEE floating-point arithmetic. ACM Trans. Math.
 //     Softw. 15(2), 144–157 (1989).
