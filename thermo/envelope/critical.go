@@ -6,6 +6,7 @@ import (
 	"sort"
 
 	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // CriticalOptions configure CriticalPoints. The zero value selects the
@@ -123,8 +124,8 @@ func (s *Solver) CriticalPoints(ctx context.Context, z []float64, opts CriticalO
 		if err := ctx.Err(); err != nil {
 			return nil, &canceledError{stage: "critical point", err: err}
 		}
-		lk := math.Log(hi) - (math.Log(hi)-math.Log(lo))*float64(j)/float64(ng-1)
-		v := math.Exp(lk) * bm
+		lk := fastmath.Log(hi) - (fastmath.Log(hi)-fastmath.Log(lo))*float64(j)/float64(ng-1)
+		v := fastmath.Exp(lk) * bm
 		Ts, it, ok := s.spinodalT(v, T)
 		res.InnerIterations += it
 		grid[j] = sample{lk: lk, T: Ts, ok: ok}
@@ -160,7 +161,7 @@ func (s *Solver) refineCritical(ctx context.Context, la, ca, Ta, lb, cb, bm, cm 
 			return *r, false
 		}
 		lk := la - ca*(lb-la)/(cb-ca)
-		v = math.Exp(lk) * bm
+		v = fastmath.Exp(lk) * bm
 		Ts, in, ok := s.spinodalT(v, T)
 		r.InnerIterations += in
 		if !ok {
@@ -323,7 +324,7 @@ func (s *Solver) cubicForm(T, vu float64) (float64, bool) {
 	eps := 1.0
 	for i := range n {
 		if s.dn[i] != 0 {
-			eps = math.Min(eps, s.z[i]/math.Abs(s.dn[i]))
+			eps = min(eps, s.z[i]/math.Abs(s.dn[i]))
 		}
 	}
 	eps *= 1e-4

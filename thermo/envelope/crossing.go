@@ -6,6 +6,7 @@ import (
 	"sort"
 
 	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // fromEnvelope finds the saturation points of the specification on a
@@ -19,7 +20,7 @@ func (s *Solver) fromEnvelope(ctx context.Context, sp satSpec, h Hint, out *Poin
 	n := s.n
 	eo := EnvelopeOptions{StartPressure: 1e4, NoStabilityCheck: true}
 	if !sp.fixT {
-		eo.StartPressure = math.Max(1e2, math.Min(1e5, sp.value/2))
+		eo.StartPressure = max(1e2, min(1e5, sp.value/2))
 	}
 	if sp.kind == Quality {
 		eo.Qualities = []float64{sp.beta}
@@ -47,7 +48,7 @@ func (s *Solver) fromEnvelope(ctx context.Context, sp satSpec, h Hint, out *Poin
 	if !sp.fixT {
 		v = n + 1
 	}
-	target := math.Log(sp.value)
+	target := fastmath.Log(sp.value)
 	type sol struct {
 		unknown float64
 		x       []float64
@@ -56,9 +57,9 @@ func (s *Solver) fromEnvelope(ctx context.Context, sp satSpec, h Hint, out *Poin
 	var sols []sol
 	get := func(p *EnvelopePoint) float64 {
 		if sp.fixT {
-			return math.Log(p.T)
+			return fastmath.Log(p.T)
 		}
-		return math.Log(p.P)
+		return fastmath.Log(p.P)
 	}
 	s.evals = 0
 	for k := 0; k+1 < len(pts); k++ {
@@ -128,7 +129,7 @@ func (s *Solver) fromEnvelope(ctx context.Context, sp satSpec, h Hint, out *Poin
 	rep.LnPhiEvaluations += s.evals
 	rep.Residual = resid
 	if st != newtonConverged || !s.physical() {
-		return &ConvergenceError{What: sp.kind.String() + " point", Iterations: it, T: math.Exp(s.X[n]), P: math.Exp(s.X[n+1]), Residual: resid, Reason: st.String()}
+		return &ConvergenceError{What: sp.kind.String() + " point", Iterations: it, T: fastmath.Exp(s.X[n]), P: fastmath.Exp(s.X[n+1]), Residual: resid, Reason: st.String()}
 	}
 	out.Report = rep
 	s.fill(sp, out, PathEnvelope)
@@ -148,7 +149,7 @@ func (s *Solver) alongEnvelope(a, b *EnvelopePoint, v int, target float64, sp sa
 	n, m := s.n, s.m
 	load := func(p *EnvelopePoint, dst []float64) {
 		copy(dst, p.LnK)
-		dst[n], dst[n+1] = math.Log(p.T), math.Log(p.P)
+		dst[n], dst[n+1] = fastmath.Log(p.T), fastmath.Log(p.P)
 	}
 	ax, bx := s.r1X, s.r2X
 	load(a, ax)
@@ -216,7 +217,7 @@ func (s *Solver) physical() bool {
 	if s.beta == 1 {
 		xr = 0
 	}
-	T, P := math.Exp(s.X[s.n]), math.Exp(s.X[s.n+1])
+	T, P := fastmath.Exp(s.X[s.n]), fastmath.Exp(s.X[s.n+1])
 	if yr == 3 {
 		if s.mx.Fugacity(s.ws, T, P, s.y, eos.RootMinGibbs, 0, s.fy) != nil || s.fy.Branch != yb {
 			return false

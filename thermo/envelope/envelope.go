@@ -4,6 +4,8 @@ import (
 	"context"
 	"fmt"
 	"math"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // EnvelopeOptions configure Envelope. The zero value selects the
@@ -85,7 +87,7 @@ func (o *EnvelopeOptions) resolve() (envSettings, error) {
 		}
 		e.hMax = o.MaxStep
 	}
-	e.h0 = math.Min(0.05, e.hMax)
+	e.h0 = min(0.05, e.hMax)
 	for i, b := range o.Qualities {
 		if !(b > 0 && b < 1) {
 			return e, &InputError{Field: fmt.Sprintf("EnvelopeOptions.Qualities[%d]", i), Value: b, Reason: "vapour fraction must lie strictly between 0 and 1"}
@@ -315,7 +317,7 @@ func (s *Solver) Envelope(ctx context.Context, z []float64, opts EnvelopeOptions
 func infNormalize(v []float64) {
 	m := 0.0
 	for _, x := range v {
-		m = math.Max(m, math.Abs(x))
+		m = max(m, math.Abs(x))
 	}
 	if m > 0 {
 		for i := range v {
@@ -358,7 +360,7 @@ func (s *Solver) predict(havePrev bool, sp int, target float64) {
 		ps := s.prvS[sp]
 		pm := 0.0
 		for _, v := range s.prvS {
-			pm = math.Max(pm, math.Abs(v))
+			pm = max(pm, math.Abs(v))
 		}
 		h := s.curX[sp] - s.prvX[sp]
 		if math.Abs(ps) > 0.05*pm && math.Abs(h) > 1e-12 && math.Abs(target-s.curX[sp]) <= 2*math.Abs(h) {
@@ -392,7 +394,7 @@ func (s *Solver) stepLength(sp int, h float64) float64 {
 		if i < n {
 			d /= lnKWeight
 		}
-		r = math.Max(r, d)
+		r = max(r, d)
 	}
 	return h / r
 }
@@ -424,7 +426,7 @@ func (s *Solver) trace(ctx context.Context, beta float64, o envSettings, env *En
 		rep.LnPhiEvaluations = s.evals
 		rep.Stop, rep.Detail = StopStepCuts, "start point: "+st.String()
 		return &ConvergenceError{What: fmt.Sprintf("envelope start (%s point at P = %g Pa)", kind0, o.p0), Iterations: srep.NewtonIterations + srep.SSIterations,
-			T: math.Exp(s.X[n]), P: o.p0, Residual: srep.Residual, Reason: st.String()}
+			T: fastmath.Exp(s.X[n]), P: o.p0, Residual: srep.Residual, Reason: st.String()}
 	}
 	side := true // y (feed on the β = 1 trace) on the vapour root
 	copy(s.curX, s.X)
@@ -432,7 +434,7 @@ func (s *Solver) trace(ctx context.Context, beta float64, o envSettings, env *En
 	copy(s.tCur, s.curS)
 	infNormalize(s.tCur)
 	s.appendPoint(env, pts, rep, kind0, srep.NewtonIterations, n+1)
-	lnPstop, lnPmax, lnTmin := math.Log(o.pStop), math.Log(o.pMax), math.Log(o.tMin)
+	lnPstop, lnPmax, lnTmin := fastmath.Log(o.pStop), fastmath.Log(o.pMax), fastmath.Log(o.tMin)
 	h := o.h0
 	havePrev := false
 	cuts := 0
@@ -490,10 +492,10 @@ func (s *Solver) trace(ctx context.Context, beta float64, o envSettings, env *En
 			h /= 2
 			if cuts > 12 || h < 1e-8 {
 				rep.Stop = StopStepCuts
-				rep.Detail = fmt.Sprintf("Newton failed (%v) at step %.3g after %d cuts, from T = %.6g K, P = %.6g Pa", st, h*2, cuts, math.Exp(s.curX[n]), math.Exp(s.curX[n+1]))
-				rep.LastT, rep.LastP = math.Exp(s.curX[n]), math.Exp(s.curX[n+1])
+				rep.Detail = fmt.Sprintf("Newton failed (%v) at step %.3g after %d cuts, from T = %.6g K, P = %.6g Pa", st, h*2, cuts, fastmath.Exp(s.curX[n]), fastmath.Exp(s.curX[n+1]))
+				rep.LastT, rep.LastP = fastmath.Exp(s.curX[n]), fastmath.Exp(s.curX[n+1])
 				rep.LnPhiEvaluations = s.evals
-				return &ConvergenceError{What: "envelope point", Iterations: it, T: math.Exp(s.curX[n]), P: math.Exp(s.curX[n+1]), Residual: math.NaN(), Reason: rep.Detail}
+				return &ConvergenceError{What: "envelope point", Iterations: it, T: fastmath.Exp(s.curX[n]), P: fastmath.Exp(s.curX[n+1]), Residual: math.NaN(), Reason: rep.Detail}
 			}
 			continue
 		}
@@ -548,21 +550,21 @@ func (s *Solver) trace(ctx context.Context, beta float64, o envSettings, env *En
 		default:
 			h *= 0.6
 		}
-		h = math.Min(h, o.hMax)
+		h = min(h, o.hMax)
 		if final {
 			rep.Stop, rep.Detail = StopLowPressure, fmt.Sprintf("reached %g Pa", o.pStop)
 			break
 		}
 		if s.curX[n+1] > lnPmax {
-			rep.Stop, rep.Detail = StopMaxPressure, fmt.Sprintf("P = %.6g Pa above %g Pa with the envelope still open", math.Exp(s.curX[n+1]), o.pMax)
+			rep.Stop, rep.Detail = StopMaxPressure, fmt.Sprintf("P = %.6g Pa above %g Pa with the envelope still open", fastmath.Exp(s.curX[n+1]), o.pMax)
 			break
 		}
 		if s.curX[n] < lnTmin {
-			rep.Stop, rep.Detail = StopMinTemperature, fmt.Sprintf("T = %.6g K below %g K", math.Exp(s.curX[n]), o.tMin)
+			rep.Stop, rep.Detail = StopMinTemperature, fmt.Sprintf("T = %.6g K below %g K", fastmath.Exp(s.curX[n]), o.tMin)
 			break
 		}
 	}
-	rep.LastT, rep.LastP = math.Exp(s.curX[n]), math.Exp(s.curX[n+1])
+	rep.LastT, rep.LastP = fastmath.Exp(s.curX[n]), fastmath.Exp(s.curX[n+1])
 	rep.LnPhiEvaluations = s.evals
 	return nil
 }
@@ -572,7 +574,7 @@ func (s *Solver) appendPoint(env *Envelope, pts *[]EnvelopePoint, rep *EnvelopeR
 	n := s.n
 	lk := env.alloc(n)
 	copy(lk, s.X[:n])
-	*pts = append(*pts, EnvelopePoint{Kind: k, T: math.Exp(s.X[n]), P: math.Exp(s.X[n+1]), LnK: lk, Iterations: it, Spec: spec})
+	*pts = append(*pts, EnvelopePoint{Kind: k, T: fastmath.Exp(s.X[n]), P: fastmath.Exp(s.X[n+1]), LnK: lk, Iterations: it, Spec: spec})
 	rep.Points++
 }
 
@@ -601,7 +603,7 @@ func (s *Solver) locateCritical(env *Envelope, pts *[]EnvelopePoint, rep *Envelo
 		s.sA[i] = s.curS[i] / s.curS[c]
 		s.sB[i] = s.bS[i] / s.bS[c]
 	}
-	delta := math.Min(0.01, 0.5*math.Min(math.Abs(ax), math.Abs(bx)))
+	delta := min(0.01, 0.5*min(math.Abs(ax), math.Abs(bx)))
 	iters := 0
 	ok := delta > 1e-6
 	refine := func(target float64, yVap bool, dstX, dstS []float64) bool {
@@ -624,7 +626,7 @@ func (s *Solver) locateCritical(env *Envelope, pts *[]EnvelopePoint, rep *Envelo
 	} else {
 		hermite(s.guess, s.curX, s.sA, s.bX, s.sB, ax, bx, 0)
 	}
-	T, P := math.Exp(s.guess[n]), math.Exp(s.guess[n+1])
+	T, P := fastmath.Exp(s.guess[n]), fastmath.Exp(s.guess[n+1])
 	env.Critical = append(env.Critical, CriticalPoint{T: T, P: P, Index: len(*pts), Iterations: iters})
 	*pts = append(*pts, EnvelopePoint{Kind: Critical, T: T, P: P, LnK: env.alloc(n), Iterations: iters, Spec: c})
 	rep.Points++

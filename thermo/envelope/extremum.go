@@ -3,6 +3,8 @@ package envelope
 import (
 	"context"
 	"math"
+
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // extrema looks for the cricondenbar (d ln P/ds changes from + to −) and
@@ -94,7 +96,7 @@ func (s *Solver) locateExtremum(ext *Extremum, rep *EnvelopeReport, side bool, o
 		other = n + 1
 	}
 	res := math.Abs(s.sens[o] / s.sens[other])
-	T, P := math.Exp(s.X[n]), math.Exp(s.X[n+1])
+	T, P := fastmath.Exp(s.X[n]), fastmath.Exp(s.X[n+1])
 	better := !ext.Found || (o == n+1 && P > ext.P) || (o == n && T > ext.T)
 	if !better {
 		return

@@ -6,6 +6,7 @@ import "math"
 // partial pivoting (Golub & Van Loan, Matrix Computations, alg. 3.4.1).
 // It reports false when a pivot is zero or not finite.
 func luFactor(a []float64, m int, piv []int) bool {
+	a = a[:m*m]
 	for k := range m {
 		p, best := k, math.Abs(a[k*m+k])
 		for i := k + 1; i < m; i++ {
@@ -17,22 +18,25 @@ func luFactor(a []float64, m int, piv []int) bool {
 			return false
 		}
 		piv[k] = p
+		rk := a[k*m : k*m+m]
 		if p != k {
-			rk, rp := a[k*m:k*m+m], a[p*m:p*m+m]
-			for j := range m {
-				rk[j], rp[j] = rp[j], rk[j]
+			rp := a[p*m : p*m+m][:len(rk)]
+			for j, v := range rk {
+				rk[j], rp[j] = rp[j], v
 			}
 		}
-		inv := 1 / a[k*m+k]
+		inv := 1 / rk[k]
+		uk := rk[k+1:]
 		for i := k + 1; i < m; i++ {
-			l := a[i*m+k] * inv
-			a[i*m+k] = l
+			ri := a[i*m : i*m+m]
+			l := ri[k] * inv
+			ri[k] = l
 			if l == 0 {
 				continue
 			}
-			ri, rk := a[i*m:i*m+m], a[k*m:k*m+m]
-			for j := k + 1; j < m; j++ {
-				ri[j] -= l * rk[j]
+			ui := ri[k+1:][:len(uk)]
+			for j, v := range uk {
+				ui[j] -= l * v
 			}
 		}
 	}
@@ -41,6 +45,7 @@ func luFactor(a []float64, m int, piv []int) bool {
 
 // luSolve solves (L·U)x = b for the factors of luFactor, overwriting b.
 func luSolve(a []float64, m int, piv []int, b []float64) {
+	a, b = a[:m*m], b[:m]
 	for k := range m {
 		if p := piv[k]; p != k {
 			b[k], b[p] = b[p], b[k]
@@ -48,18 +53,19 @@ func luSolve(a []float64, m int, piv []int, b []float64) {
 	}
 	for i := range m {
 		s := b[i]
-		row := a[i*m : i*m+i]
-		for j, v := range row {
+		for j, v := range a[i*m : i*m+i] {
 			s -= v * b[j]
 		}
 		b[i] = s
 	}
 	for i := m - 1; i >= 0; i-- {
+		row := a[i*m : i*m+m]
 		s := b[i]
-		for j := i + 1; j < m; j++ {
-			s -= a[i*m+j] * b[j]
+		bi := b[i+1:]
+		for j, v := range row[i+1:][:len(bi)] {
+			s -= v * bi[j]
 		}
-		b[i] = s / a[i*m+i]
+		b[i] = s / row[i]
 	}
 }
 

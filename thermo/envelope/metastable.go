@@ -5,6 +5,7 @@ import (
 
 	"github.com/fugad/fugad/thermo/component"
 	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // Settings of the third-phase test (dimensionless).
@@ -137,17 +138,17 @@ func (s *Solver) thirdPhase(T, P float64, lnK []float64, kind Kind, full bool) (
 	}
 	sx := 0.0
 	for _, i := range ss.act {
-		sx += s.z[i] / math.Exp(lnK[i])
+		sx += s.z[i] / fastmath.Exp(lnK[i])
 	}
 	D := 0.0
 	for _, i := range ss.act {
 		ss.d[i] = ss.lnz[i] + f.LnPhi[i]
-		ss.lnx[i] = ss.lnz[i] - lnK[i] - math.Log(sx)
+		ss.lnx[i] = ss.lnz[i] - lnK[i] - fastmath.Log(sx)
 		e := ss.lnx[i] - ss.lnz[i]
 		D += e * e
 	}
-	feedTol := math.Min(fallTol, fallFrac*D)
-	xTol := math.Min(incTol, fallFrac*D)
+	feedTol := min(fallTol, fallFrac*D)
+	xTol := min(incTol, fallFrac*D)
 	if D == 0 {
 		feedTol, xTol = fallTol, -1
 	}
@@ -183,7 +184,7 @@ func (s *Solver) thirdPhase(T, P float64, lnK []float64, kind Kind, full bool) (
 					l = lnPureMajor
 				}
 			}
-			ss.lnW[i] = math.Max(-maxLnK, math.Min(maxLnK, l))
+			ss.lnW[i] = max(-maxLnK, min(maxLnK, l))
 		}
 		t1, aw := s.runTrial(T, P, feedTol, xTol)
 		if !aw {
@@ -236,7 +237,7 @@ func (s *Solver) runTrial(T, P, feedTol, xTol float64) (float64, bool) {
 	for it := range maxTrialIt {
 		sw := 0.0
 		for _, i := range ss.act {
-			ss.W[i] = math.Exp(ss.lnW[i])
+			ss.W[i] = fastmath.Exp(ss.lnW[i])
 			sw += ss.W[i]
 		}
 		for _, i := range ss.act {
@@ -246,14 +247,14 @@ func (s *Solver) runTrial(T, P, feedTol, xTol float64) (float64, bool) {
 			return 0, false
 		}
 		ss.evals++
-		lsw := math.Log(sw)
+		lsw := fastmath.Log(sw)
 		tpd, tm, res := 0.0, 1.0, 0.0
 		dz, dx := 0.0, 0.0
 		for _, i := range ss.act {
 			r := ss.lnW[i] + f.LnPhi[i] - ss.d[i]
 			tpd += ss.W[i] * (r - lsw)
 			tm += sw * ss.W[i] * (r - 1)
-			res = math.Max(res, math.Abs(r))
+			res = max(res, math.Abs(r))
 			ln := ss.lnW[i] - r
 			ss.lnWn[i] = ln
 			e := ln - ss.lnz[i]
@@ -301,7 +302,7 @@ func (s *Solver) runTrial(T, P, feedTol, xTol float64) (float64, bool) {
 			}
 		}
 		for _, i := range ss.act {
-			ss.lnW[i] = math.Max(-maxLnK, math.Min(maxLnK, ss.lnW[i]+acc*ss.dPrev[i]))
+			ss.lnW[i] = max(-maxLnK, min(maxLnK, ss.lnW[i]+acc*ss.dPrev[i]))
 		}
 	}
 	// Still creeping after maxTrialIt steps without a negative tpd: next to
@@ -330,7 +331,7 @@ func (s *Solver) checkStability(env *Envelope, pts []EnvelopePoint, rep *Envelop
 	for i, v := range s.z {
 		if v > 0 {
 			ss.act = append(ss.act, i)
-			ss.lnz[i] = math.Log(v)
+			ss.lnz[i] = fastmath.Log(v)
 			switch s.mx.Component(i).Family {
 			case component.FamilyWater, component.FamilyAlcohol, component.FamilyGlycol:
 				ss.special++
@@ -344,7 +345,7 @@ func (s *Solver) checkStability(env *Envelope, pts []EnvelopePoint, rep *Envelop
 	for k := range pts {
 		p := &pts[k]
 		if k > 0 {
-			path += math.Abs(math.Log(p.T/pts[k-1].T)) + math.Abs(math.Log(p.P/pts[k-1].P))
+			path += math.Abs(fastmath.Log(p.T/pts[k-1].T)) + math.Abs(fastmath.Log(p.P/pts[k-1].P))
 		}
 		full := lastFull < 0 || k == len(pts)-1 || path >= fullTestSpacing
 		had := ss.haveCand
@@ -375,10 +376,10 @@ func (s *Solver) checkStability(env *Envelope, pts []EnvelopePoint, rep *Envelop
 			rep.MetastablePMin, rep.MetastablePMax = p.P, p.P
 		}
 		rep.Metastable++
-		rep.MetastableTMin = math.Min(rep.MetastableTMin, p.T)
-		rep.MetastableTMax = math.Max(rep.MetastableTMax, p.T)
-		rep.MetastablePMin = math.Min(rep.MetastablePMin, p.P)
-		rep.MetastablePMax = math.Max(rep.MetastablePMax, p.P)
+		rep.MetastableTMin = min(rep.MetastableTMin, p.T)
+		rep.MetastableTMax = max(rep.MetastableTMax, p.T)
+		rep.MetastablePMin = min(rep.MetastablePMin, p.P)
+		rep.MetastablePMax = max(rep.MetastablePMax, p.P)
 	}
 	rep.StabilityTrials += ss.trials
 	rep.StabilityEvaluations += ss.evals

@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // BranchChoice selects one of several saturation points at the same
@@ -252,7 +253,7 @@ func (s *Solver) saturation(ctx context.Context, sp satSpec, z []float64, h Hint
 		if h.Start != 0 {
 			rep.LnPhiEvaluations = s.evals
 			return &ConvergenceError{What: sp.kind.String() + " point", Iterations: rep.NewtonIterations + rep.SSIterations,
-				T: math.Exp(s.X[s.n]), P: math.Exp(s.X[s.n+1]), Residual: rep.Residual, Reason: st.String() + " from the given start"}
+				T: fastmath.Exp(s.X[s.n]), P: fastmath.Exp(s.X[s.n+1]), Residual: rep.Residual, Reason: st.String() + " from the given start"}
 		}
 	}
 	return s.fromEnvelope(ctx, sp, h, out)
@@ -302,14 +303,14 @@ func (s *Solver) wilsonStart(sp satSpec, start float64) {
 	n := s.n
 	var lo, hi, u, lim float64
 	if sp.fixT {
-		s.X[n] = math.Log(sp.value)
-		lo, hi, u, lim = math.Log(minP), math.Log(maxP), math.Log(1e6), 3
+		s.X[n] = fastmath.Log(sp.value)
+		lo, hi, u, lim = fastmath.Log(minP), fastmath.Log(maxP), fastmath.Log(1e6), 3
 	} else {
-		s.X[n+1] = math.Log(sp.value)
-		lo, hi, u, lim = math.Log(minT), math.Log(maxT), math.Log(300), 0.7
+		s.X[n+1] = fastmath.Log(sp.value)
+		lo, hi, u, lim = fastmath.Log(minT), fastmath.Log(maxT), fastmath.Log(300), 0.7
 	}
 	if start > 0 {
-		s.setWilsonK(sp, math.Log(start))
+		s.setWilsonK(sp, fastmath.Log(start))
 		return
 	}
 	for range 200 {
@@ -324,7 +325,7 @@ func (s *Solver) wilsonStart(sp satSpec, start float64) {
 		}
 		step := 0.0
 		if dg != 0 {
-			step = math.Max(-lim, math.Min(lim, -g/dg))
+			step = max(-lim, min(lim, -g/dg))
 		}
 		next := u + step
 		if !(next > lo && next < hi) || dg == 0 {
@@ -345,18 +346,18 @@ func (s *Solver) setWilsonK(sp satSpec, u float64) (float64, float64) {
 	n := s.n
 	var T, P float64
 	if sp.fixT {
-		T, P = sp.value, math.Exp(u)
+		T, P = sp.value, fastmath.Exp(u)
 		s.X[n+1] = u
 	} else {
-		T, P = math.Exp(u), sp.value
+		T, P = fastmath.Exp(u), sp.value
 		s.X[n] = u
 	}
 	s.mx.LnWilsonK(T, P, s.X[:n])
 	b := sp.beta
 	sx, sy := 0.0, 0.0
 	for i := range n {
-		s.X[i] = math.Max(-maxLnK, math.Min(maxLnK, s.X[i]))
-		k := math.Exp(s.X[i])
+		s.X[i] = max(-maxLnK, min(maxLnK, s.X[i]))
+		k := fastmath.Exp(s.X[i])
 		t := 1 - b + b*k
 		s.x[i] = s.z[i] / t
 		s.y[i] = k * s.x[i]
@@ -366,7 +367,7 @@ func (s *Solver) setWilsonK(sp satSpec, u float64) (float64, float64) {
 	dh := 0.0
 	for i := range n {
 		c := s.mx.Component(i)
-		k := math.Exp(s.X[i])
+		k := fastmath.Exp(s.X[i])
 		t := 1 - b + b*k
 		dl := -1.0
 		if !sp.fixT {
@@ -374,7 +375,7 @@ func (s *Solver) setWilsonK(sp satSpec, u float64) (float64, float64) {
 		}
 		dh += (s.y[i]*(1-b)/t/sy + s.x[i]*b*k/t/sx) * dl
 	}
-	return math.Log(sy) - math.Log(sx), dh
+	return fastmath.Log(sy) - fastmath.Log(sx), dh
 }
 
 // direct solves a saturation point from Wilson K-values (or the hint):
@@ -402,7 +403,7 @@ func (s *Solver) direct(sp satSpec, h Hint, rep *Report) newtonStatus {
 	for it := 1; it <= s.set.maxSS; it++ {
 		rep.SSIterations++
 		s.compositions()
-		T, P := math.Exp(s.X[n]), math.Exp(s.X[n+1])
+		T, P := fastmath.Exp(s.X[n]), fastmath.Exp(s.X[n+1])
 		if s.mx.Fugacity(s.ws, T, P, s.y, ry, want, s.fy) != nil || s.mx.Fugacity(s.ws, T, P, s.x, rx, want, s.fx) != nil {
 			return newtonEval
 		}
@@ -410,10 +411,10 @@ func (s *Solver) direct(sp satSpec, h Hint, rep *Report) newtonStatus {
 		dmax, g, dg := 0.0, 0.0, 0.0
 		for i := range n {
 			lk := s.fx.LnPhi[i] - s.fy.LnPhi[i]
-			lk = math.Max(-maxLnK, math.Min(maxLnK, lk))
-			dmax = math.Max(dmax, math.Abs(lk-s.X[i]))
+			lk = max(-maxLnK, min(maxLnK, lk))
+			dmax = max(dmax, math.Abs(lk-s.X[i]))
 			s.X[i] = lk
-			k := math.Exp(lk)
+			k := fastmath.Exp(lk)
 			t := 1 - b + b*k
 			var dl float64
 			if sp.fixT {
@@ -432,9 +433,9 @@ func (s *Solver) direct(sp satSpec, h Hint, rep *Report) newtonStatus {
 		if !sp.fixT {
 			lim = 0.1
 		}
-		du = math.Max(-lim, math.Min(lim, du))
+		du = max(-lim, min(lim, du))
 		s.X[free] += du
-		if !(s.X[n] > math.Log(minT) && s.X[n] < math.Log(maxT) && s.X[n+1] > math.Log(minP) && s.X[n+1] < math.Log(maxP)) {
+		if !(s.X[n] > fastmath.Log(minT) && s.X[n] < fastmath.Log(maxT) && s.X[n+1] > fastmath.Log(minP) && s.X[n+1] < fastmath.Log(maxP)) {
 			return newtonDomain
 		}
 		if s.sumLnK2() < trivialTol {
@@ -476,7 +477,7 @@ func (s *Solver) fill(sp satSpec, out *Point, path Path) {
 		out.LnK[i] = s.X[i]
 	}
 	out.Kind, out.Beta = sp.kind, sp.beta
-	out.T, out.P = math.Exp(s.X[n]), math.Exp(s.X[n+1])
+	out.T, out.P = fastmath.Exp(s.X[n]), fastmath.Exp(s.X[n+1])
 	if sp.fixT {
 		out.T = sp.value
 	} else {

@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/internal/fastmath"
 )
 
 // Kind labels a point of a phase boundary.
@@ -204,7 +205,7 @@ func (s *Solver) roots() (ry, rx eos.RootChoice) {
 func (s *Solver) compositions() {
 	b := s.beta
 	for i := range s.n {
-		k := math.Exp(s.X[i])
+		k := fastmath.Exp(s.X[i])
 		t := 1 - b + b*k
 		s.x[i] = s.z[i] / t
 		s.y[i] = k * s.x[i]
@@ -230,7 +231,7 @@ func (s *Solver) compositions() {
 func (s *Solver) evaluate(spec int, S float64, jac bool) error {
 	n, m := s.n, s.m
 	s.compositions()
-	T, P := math.Exp(s.X[n]), math.Exp(s.X[n+1])
+	T, P := fastmath.Exp(s.X[n]), fastmath.Exp(s.X[n+1])
 	ry, rx := s.roots()
 	want := eos.Want(0)
 	if jac {
@@ -259,7 +260,7 @@ func (s *Solver) evaluate(spec int, S float64, jac bool) error {
 	b := s.beta
 	J := s.J
 	for j := range n {
-		k := math.Exp(s.X[j])
+		k := fastmath.Exp(s.X[j])
 		t := 1 - b + b*k
 		dy := s.y[j] * (1 - b) / t / sy
 		dx := s.x[j] * b * k / t / sx
@@ -285,7 +286,7 @@ func (s *Solver) evaluate(spec int, S float64, jac bool) error {
 func (s *Solver) residual() float64 {
 	r := 0.0
 	for i := 0; i <= s.n; i++ {
-		r = math.Max(r, math.Abs(s.F[i]))
+		r = max(r, math.Abs(s.F[i]))
 	}
 	return r
 }
@@ -364,9 +365,9 @@ func (s *Solver) newton(spec int, S float64, maxIt int, trivial bool) (int, floa
 		}
 		s.X[spec] = S
 		for i := range n {
-			s.X[i] = math.Max(-maxLnK, math.Min(maxLnK, s.X[i]))
+			s.X[i] = max(-maxLnK, min(maxLnK, s.X[i]))
 		}
-		if !(s.X[n] > math.Log(minT) && s.X[n] < math.Log(maxT) && s.X[n+1] > math.Log(minP) && s.X[n+1] < math.Log(maxP)) {
+		if !(s.X[n] > fastmath.Log(minT) && s.X[n] < fastmath.Log(maxT) && s.X[n+1] > fastmath.Log(minP) && s.X[n+1] < fastmath.Log(maxP)) {
 			return it, resid, newtonDomain
 		}
 		if trivial && s.sumLnK2() < 1e-3*trivialTol {
