@@ -27,13 +27,23 @@ func luFactor(a []float64, m int, piv []int) bool {
 		}
 		inv := 1 / rk[k]
 		uk := rk[k+1:]
-		for i := k + 1; i < m; i++ {
+		// Rows are updated two at a time, sharing each load of row k;
+		// every element gets the same single update as one row at a time.
+		i := k + 1
+		for ; i+2 <= m; i += 2 {
+			r0, r1 := a[i*m:i*m+m], a[(i+1)*m:(i+1)*m+m]
+			l0, l1 := r0[k]*inv, r1[k]*inv
+			r0[k], r1[k] = l0, l1
+			u0, u1 := r0[k+1:][:len(uk)], r1[k+1:][:len(uk)]
+			for j, v := range uk {
+				u0[j] -= l0 * v
+				u1[j] -= l1 * v
+			}
+		}
+		if i < m {
 			ri := a[i*m : i*m+m]
 			l := ri[k] * inv
 			ri[k] = l
-			if l == 0 {
-				continue
-			}
 			ui := ri[k+1:][:len(uk)]
 			for j, v := range uk {
 				ui[j] -= l * v
