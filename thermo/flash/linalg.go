@@ -4,50 +4,56 @@ import "math"
 
 // cholesky factors the symmetric positive-definite n×n matrix a (row-major)
 // in place into its lower triangle L with a = L·Lᵀ, storing 1/L_jj on the
-// diagonal (cholSolve multiplies by it). It reports false, with a partly
-// overwritten a, when a pivot is not positive. The inner products below
-// the diagonal, the bulk of the work, are summed from column 8 on in four
-// partial sums (k mod 4) added at the end: four chains of additions that
-// run side by side instead of one that waits on every term. The order is
-// fixed, so the result is reproducible.
+// diagonal (cholSolve multiplies by it); only the lower triangle of a is
+// read, and its strict upper triangle is used as scratch. It reports
+// false, with a partly overwritten a, when a pivot is not positive.
+//
+// The factor is formed by columns, right-looking (Golub & Van Loan,
+// Matrix Computations, 4th ed., alg. 4.2.2, outer-product form): column k
+// of L is scaled and copied into row k's upper part, then subtracted from
+// the rows below it, two rows at a time sharing each load of the copy.
+// Every entry gets the same subtractions in the same order as in the
+// inner-product form, L_ij = (a_ij − Σ_{k<j} L_ik L_jk)/L_jj, so the
+// factor is the same to the bit; the updates of one column are
+// independent of each other, where an inner product waits on its own
+// running sum at every term.
 func cholesky(a []float64, n int) bool {
 	a = a[:n*n]
-	for j := range n {
-		rj := a[j*n : j*n+j+1]
-		rjj := rj[:j]
-		s := rj[j]
-		for _, v := range rjj {
-			s -= v * v
-		}
+	for k := range n {
+		rk := a[k*n : k*n+n]
+		s := rk[k]
 		if !(s > 0) {
 			return false
 		}
 		inv := 1 / math.Sqrt(s)
-		rj[j] = inv
-		for i := j + 1; i < n; i++ {
-			ri := a[i*n : i*n+j+1]
-			x := ri[:j]
-			y := rjj[:len(x)]
-			if j < 8 {
-				t := ri[j]
-				for k, v := range x {
-					t -= v * y[k]
-				}
-				ri[j] = t * inv
-				continue
+		rk[k] = inv
+		for i := k + 1; i < n; i++ {
+			l := a[i*n+k] * inv
+			a[i*n+k] = l
+			rk[i] = l
+		}
+		// c_j = L_jk for j > k; a_ij −= L_ik·L_jk for k < j ≤ i.
+		c := rk[k+1:]
+		i := k + 1
+		for ; i+2 <= n; i += 2 {
+			r0, r1 := a[i*n:i*n+n], a[(i+1)*n:(i+1)*n+n]
+			l0, l1 := r0[k], r1[k]
+			w := i - k // entries j = k+1..i of row i
+			u0, u1 := r0[k+1:][:w], r1[k+1:][:w+1]
+			for j, v := range c[:w] {
+				u0[j] -= l0 * v
+				u1[j] -= l1 * v
 			}
-			var s0, s1, s2, s3 float64
-			k := 0
-			for ; k+4 <= len(x); k += 4 {
-				s0 += x[k] * y[k]
-				s1 += x[k+1] * y[k+1]
-				s2 += x[k+2] * y[k+2]
-				s3 += x[k+3] * y[k+3]
+			u1[w] -= l1 * c[w]
+		}
+		if i < n {
+			ri := a[i*n : i*n+n]
+			li := ri[k]
+			w := i - k
+			ui := ri[k+1:][:w]
+			for j, v := range c[:w] {
+				ui[j] -= li * v
 			}
-			for ; k < len(x); k++ {
-				s0 += x[k] * y[k]
-			}
-			ri[j] = (ri[j] - ((s0 + s1) + (s2 + s3))) * inv
 		}
 	}
 	return true
