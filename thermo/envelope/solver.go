@@ -6,6 +6,7 @@ import (
 
 	"github.com/fugad/fugad/thermo/eos"
 	"github.com/fugad/fugad/thermo/internal/fastmath"
+	"github.com/fugad/fugad/thermo/internal/linalg"
 )
 
 // Kind labels a point of a phase boundary.
@@ -332,7 +333,7 @@ func (s *Solver) newton(spec int, S float64, maxIt int, trivial bool) (int, floa
 		if math.IsNaN(resid) {
 			return it, resid, newtonEval
 		}
-		if !luFactor(s.J, m, s.piv) {
+		if !linalg.LUFactor(s.J, m, s.piv) {
 			return it, resid, newtonSingular
 		}
 		if resid <= s.set.tol {
@@ -347,7 +348,7 @@ func (s *Solver) newton(spec int, S float64, maxIt int, trivial bool) (int, floa
 		for i := range m {
 			s.dX[i] = -s.F[i]
 		}
-		luSolve(s.J, m, s.piv, s.dX)
+		linalg.LUSolve(s.J, m, s.piv, s.dX)
 		scale := 1.0
 		for i := range n {
 			if a := math.Abs(s.dX[i]); a*scale > 1.5 {
@@ -385,5 +386,5 @@ func (s *Solver) sensitivity(dst []float64) {
 		dst[i] = 0
 	}
 	dst[s.m-1] = 1
-	luSolve(s.J, s.m, s.piv, dst)
+	linalg.LUSolve(s.J, s.m, s.piv, dst)
 }

@@ -4,6 +4,7 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/internal/fastmath"
+	"github.com/fugad/fugad/thermo/internal/linalg"
 )
 
 // rrStatus says what the Rachford–Rice solve found.
@@ -179,10 +180,10 @@ func multiphaseSplit(z, e, Ei []float64, act []int, m int, beta []float64) (int,
 			l[a*nf+a] *= 1 + 1e-12
 			dx[a] = -g[free[a]]
 		}
-		if !cholesky(l[:nf*nf], nf) {
+		if !linalg.Cholesky(l[:nf*nf], nf) {
 			return it, false
 		}
-		cholSolve(l[:nf*nf], nf, dx[:nf])
+		linalg.CholSolve(l[:nf*nf], nf, dx[:nf])
 		t := 1.0
 		for a := range nf {
 			k := free[a]

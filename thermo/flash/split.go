@@ -4,8 +4,8 @@ import (
 	"math"
 
 	"github.com/fugad/fugad/thermo/eos"
-
 	"github.com/fugad/fugad/thermo/internal/fastmath"
+	"github.com/fugad/fugad/thermo/internal/linalg"
 )
 
 // splitStatus says how a phase-split solve ended.
@@ -474,7 +474,7 @@ func (ws *Workspace) newtonStep(want eos.Want, resid float64) (bool, error) {
 		ws.hessianM(dim)
 	}
 	ws.facOK = false
-	ok, shifted := solveSPD(h, dim, g, dx, ws.L[:dim*dim], ws.sc[:dim])
+	ok, shifted := linalg.SolveSPD(h, dim, g, dx, ws.L[:dim*dim], ws.sc[:dim])
 	if !ok {
 		return false, nil
 	}
@@ -500,7 +500,7 @@ func (ws *Workspace) chordStep(want eos.Want) (bool, error) {
 		g[a] = d
 		dx[a] = -d * sc[a]
 	}
-	cholSolve(ws.L[:dim*dim], dim, dx)
+	linalg.CholSolve(ws.L[:dim*dim], dim, dx)
 	for a := range dx {
 		dx[a] *= sc[a]
 		if !finite(dx[a]) {
@@ -705,7 +705,7 @@ func (ws *Workspace) hessian2(dim int) {
 		sg[a] = s
 		g[a] = s * (l0[i] - l1[i])
 	}
-	// Lower triangle only: solveSPD reads no more.
+	// Lower triangle only: linalg.SolveSPD reads no more.
 	for a, i := range vi {
 		d0, d1 := dn0[i*n:][:n], dn1[i*n:][:n]
 		row := h[a*dim:][:a+1]
@@ -811,7 +811,7 @@ func (ws *Workspace) sensitivities() {
 		bP[a] = -(p0.f.DP[i] - p1.f.DP[i]) * s
 	}
 	l := ws.L[:dim*dim]
-	cholSolve2(l, dim, bT, bP)
+	linalg.CholSolve2(l, dim, bT, bP)
 	for i := range ws.n {
 		ws.sensT[i], ws.sensP[i] = 0, 0
 	}

@@ -6,8 +6,8 @@ import (
 
 	"github.com/fugad/fugad/thermo/component"
 	"github.com/fugad/fugad/thermo/eos"
-
 	"github.com/fugad/fugad/thermo/internal/fastmath"
+	"github.com/fugad/fugad/thermo/internal/linalg"
 )
 
 // Stability criteria (dimensionless).
@@ -402,7 +402,7 @@ func (ws *Workspace) trialNewtonStep(sw float64) bool {
 		}
 		row[a]++
 	}
-	if ok, _ := solveSPD(h, na, g, ws.dx[:na], ws.L[:na*na], ws.sc[:na]); !ok {
+	if ok, _ := linalg.SolveSPD(h, na, g, ws.dx[:na], ws.L[:na*na], ws.sc[:na]); !ok {
 		return false
 	}
 	for a, i := range ws.act {

@@ -8,6 +8,7 @@ import (
 
 	"github.com/fugad/fugad/thermo/eos"
 	"github.com/fugad/fugad/thermo/flash"
+	"github.com/fugad/fugad/thermo/internal/linalg"
 )
 
 // Workspace holds the scratch memory of one goroutine's state-function
@@ -334,11 +335,11 @@ func (ws *Workspace) sensitivities() (bool, error) {
 			ws.bP[p*na+ii] = -(fk.DP[i] - f0.DP[i])
 		}
 	}
-	if !cholesky(A, dim) {
+	if !linalg.Cholesky(A, dim) {
 		return false, nil
 	}
-	cholSolve(A, dim, ws.bT[:dim])
-	cholSolve(A, dim, ws.bP[:dim])
+	linalg.CholSolve(A, dim, ws.bT[:dim])
+	linalg.CholSolve(A, dim, ws.bP[:dim])
 	rt := eos.R * T
 	for p := range m - 1 {
 		fk := ws.fug[p+1]
@@ -354,52 +355,6 @@ func (ws *Workspace) sensitivities() (bool, error) {
 	}
 	ok := finite(s.HT) && finite(s.HP) && finite(s.VT) && finite(s.VP) && s.HT > 0 && s.VP < 0
 	return ok, nil
-}
-
-// cholesky factors the symmetric positive-definite n×n matrix a
-// (row-major) in place into its lower triangle L, a = L·Lᵀ. It reports
-// false when a pivot is not positive.
-func cholesky(a []float64, n int) bool {
-	for j := range n {
-		rj := a[j*n : j*n+n]
-		s := rj[j]
-		for k := range j {
-			s -= rj[k] * rj[k]
-		}
-		if !(s > 0) || math.IsInf(s, 0) {
-			return false
-		}
-		d := math.Sqrt(s)
-		rj[j] = d
-		for i := j + 1; i < n; i++ {
-			ri := a[i*n : i*n+n]
-			t := ri[j]
-			for k := range j {
-				t -= ri[k] * rj[k]
-			}
-			ri[j] = t / d
-		}
-	}
-	return true
-}
-
-// cholSolve solves L·Lᵀ·x = b in place with the factor from cholesky.
-func cholSolve(l []float64, n int, b []float64) {
-	for i := range n {
-		ri := l[i*n : i*n+n]
-		s := b[i]
-		for k := range i {
-			s -= ri[k] * b[k]
-		}
-		b[i] = s / ri[i]
-	}
-	for i := n - 1; i >= 0; i-- {
-		s := b[i]
-		for k := i + 1; k < n; k++ {
-			s -= l[k*n+i] * b[k]
-		}
-		b[i] = s / l[i*n+i]
-	}
 }
 
 // An unverified inner split run while the previous outer residual exceeds

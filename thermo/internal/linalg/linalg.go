@@ -1,12 +1,19 @@
-package flash
+// Package linalg holds the dense factorisations the solvers of package
+// thermo share: Cholesky for the symmetric positive-definite Hessians of
+// the flashes (with a Levenberg–Marquardt shift for the indefinite ones)
+// and LU with partial pivoting for the Jacobians of the phase-envelope
+// tracer. Matrices are row-major slices, factored in place; nothing
+// allocates. Golub & Van Loan, Matrix Computations, 4th ed. (2013),
+// algorithms 3.4.1 and 4.2.2.
+package linalg
 
 import "math"
 
-// cholesky factors the symmetric positive-definite n×n matrix a (row-major)
+// Cholesky factors the symmetric positive-definite n×n matrix a (row-major)
 // in place into its lower triangle L with a = L·Lᵀ, storing 1/L_jj on the
-// diagonal (cholSolve multiplies by it); only the lower triangle of a is
+// diagonal (CholSolve multiplies by it); only the lower triangle of a is
 // read, and its strict upper triangle is used as scratch. It reports
-// false, with a partly overwritten a, when a pivot is not positive.
+// false, with a partly overwritten a, when a pivot is not positive and finite.
 //
 // The factor is formed by columns, right-looking (Golub & Van Loan,
 // Matrix Computations, 4th ed., alg. 4.2.2, outer-product form): column k
@@ -17,12 +24,12 @@ import "math"
 // factor is the same to the bit; the updates of one column are
 // independent of each other, where an inner product waits on its own
 // running sum at every term.
-func cholesky(a []float64, n int) bool {
+func Cholesky(a []float64, n int) bool {
 	a = a[:n*n]
 	for k := range n {
 		rk := a[k*n : k*n+n]
 		s := rk[k]
-		if !(s > 0) {
+		if !(s > 0) || math.IsInf(s, 0) {
 			return false
 		}
 		inv := 1 / math.Sqrt(s)
@@ -59,10 +66,10 @@ func cholesky(a []float64, n int) bool {
 	return true
 }
 
-// cholSolve solves L·Lᵀ·x = b in place (b becomes x) with the factor from
-// cholesky. The back substitution runs by rows of L: once x_i is known it
+// CholSolve solves L·Lᵀ·x = b in place (b becomes x) with the factor from
+// Cholesky. The back substitution runs by rows of L: once x_i is known it
 // is removed from every earlier equation, b_k −= L_ik·x_i.
-func cholSolve(l []float64, n int, b []float64) {
+func CholSolve(l []float64, n int, b []float64) {
 	l, b = l[:n*n], b[:n]
 	for i := range n {
 		ri := l[i*n : i*n+i+1]
@@ -83,9 +90,9 @@ func cholSolve(l []float64, n int, b []float64) {
 	}
 }
 
-// cholSolve2 is cholSolve for two right-hand sides b and c at once (one
-// pass over the factor); each comes out exactly as cholSolve gives it.
-func cholSolve2(l []float64, n int, b, c []float64) {
+// CholSolve2 is CholSolve for two right-hand sides b and c at once (one
+// pass over the factor); each comes out exactly as CholSolve gives it.
+func CholSolve2(l []float64, n int, b, c []float64) {
 	b, c = b[:n], c[:n]
 	for i := range n {
 		ri := l[i*n : i*n+i+1]
@@ -109,7 +116,7 @@ func cholSolve2(l []float64, n int, b, c []float64) {
 	}
 }
 
-// solveSPD solves h·x = −g for a symmetric matrix h (n×n, row-major, of
+// SolveSPD solves h·x = −g for a symmetric matrix h (n×n, row-major, of
 // which only the lower triangle j ≤ i is read), writing x into dx. The
 // system is scaled to unit diagonal (Jacobi scaling); when the scaled
 // matrix is not positive definite a multiple of the identity is added,
@@ -118,7 +125,7 @@ func cholSolve2(l []float64, n int, b, c []float64) {
 // values and sc n values. It reports false when no shift gives a
 // factorisation (h has a non-finite entry), and shifted when the factor
 // left in work is of a shifted matrix.
-func solveSPD(h []float64, n int, g, dx, work, sc []float64) (ok, shifted bool) {
+func SolveSPD(h []float64, n int, g, dx, work, sc []float64) (ok, shifted bool) {
 	h, work, sc = h[:n*n], work[:n*n], sc[:n]
 	for i := range n {
 		d := h[i*n+i]
@@ -140,14 +147,14 @@ func solveSPD(h []float64, n int, g, dx, work, sc []float64) (ok, shifted bool) 
 			}
 			wi[i] += mu
 		}
-		if cholesky(work, n) {
+		if Cholesky(work, n) {
 			for i := range n {
 				dx[i] = -g[i] * sc[i]
 			}
-			cholSolve(work, n, dx)
+			CholSolve(work, n, dx)
 			for i := range n {
 				dx[i] *= sc[i]
-				if !finite(dx[i]) {
+				if math.IsNaN(dx[i]) || math.IsInf(dx[i], 0) {
 					return false, mu > 0
 				}
 			}
@@ -160,4 +167,81 @@ func solveSPD(h []float64, n int, g, dx, work, sc []float64) (ok, shifted bool) 
 		}
 	}
 	return false, true
+}
+
+// LUFactor factors the row-major m×m matrix a in place into L·U with
+// partial pivoting (Golub & Van Loan, Matrix Computations, alg. 3.4.1).
+// It reports false when a pivot is zero or not finite.
+func LUFactor(a []float64, m int, piv []int) bool {
+	a = a[:m*m]
+	for k := range m {
+		p, best := k, math.Abs(a[k*m+k])
+		for i := k + 1; i < m; i++ {
+			if v := math.Abs(a[i*m+k]); v > best {
+				p, best = i, v
+			}
+		}
+		if !(best > 0) || math.IsInf(best, 0) {
+			return false
+		}
+		piv[k] = p
+		rk := a[k*m : k*m+m]
+		if p != k {
+			rp := a[p*m : p*m+m][:len(rk)]
+			for j, v := range rk {
+				rk[j], rp[j] = rp[j], v
+			}
+		}
+		inv := 1 / rk[k]
+		uk := rk[k+1:]
+		// Rows are updated two at a time, sharing each load of row k;
+		// every element gets the same single update as one row at a time.
+		i := k + 1
+		for ; i+2 <= m; i += 2 {
+			r0, r1 := a[i*m:i*m+m], a[(i+1)*m:(i+1)*m+m]
+			l0, l1 := r0[k]*inv, r1[k]*inv
+			r0[k], r1[k] = l0, l1
+			u0, u1 := r0[k+1:][:len(uk)], r1[k+1:][:len(uk)]
+			for j, v := range uk {
+				u0[j] -= l0 * v
+				u1[j] -= l1 * v
+			}
+		}
+		if i < m {
+			ri := a[i*m : i*m+m]
+			l := ri[k] * inv
+			ri[k] = l
+			ui := ri[k+1:][:len(uk)]
+			for j, v := range uk {
+				ui[j] -= l * v
+			}
+		}
+	}
+	return true
+}
+
+// LUSolve solves (L·U)x = b for the factors of LUFactor, overwriting b.
+func LUSolve(a []float64, m int, piv []int, b []float64) {
+	a, b = a[:m*m], b[:m]
+	for k := range m {
+		if p := piv[k]; p != k {
+			b[k], b[p] = b[p], b[k]
+		}
+	}
+	for i := range m {
+		s := b[i]
+		for j, v := range a[i*m : i*m+i] {
+			s -= v * b[j]
+		}
+		b[i] = s
+	}
+	for i := m - 1; i >= 0; i-- {
+		row := a[i*m : i*m+m]
+		s := b[i]
+		bi := b[i+1:]
+		for j, v := range row[i+1:][:len(bi)] {
+			s -= v * bi[j]
+		}
+		b[i] = s / row[i]
+	}
 }
