@@ -462,6 +462,11 @@ const (
 	// as a p98.
 	shedFastLimit    = time.Millisecond
 	shedSlowFraction = 0.02
+	// shedOverFloor: where the 1 ms bound fails for every answer of the
+	// transport (health checks included), shed answers must still be no
+	// slower than that floor: their fraction at or above shedFastLimit at
+	// most this much above the health checks' in the same run.
+	shedOverFloor = 0.10
 	// The heap after the overload, once collected, is within 1.5× the
 	// heap before plus 16 MiB: nothing grows with the number of shed or
 	// accepted calls (the result cache is bypassed; in-flight calls are
@@ -603,6 +608,10 @@ func TestOverload(t *testing.T) {
 
 	heapBefore := heapInuse()
 	acceptedTotal, fast := 0, false
+	// shedSlower counts the runs in which shed answers took 1 ms or more
+	// clearly more often than the health checks sent meanwhile: a shed
+	// path slower than the transport's own floor.
+	shedSlower, runs := 0, 0
 	for attempt := 1; attempt <= overloadAttempts && !fast; attempt++ {
 		stop := make(chan struct{})
 		healthBad, healthLatencies := healthProbe(lb.health, stop)
@@ -653,6 +662,10 @@ func TestOverload(t *testing.T) {
 			attempt, quantile(health, 0.5), quantile(health, 0.99), quantile(health, 1), atLeast(health, shedFastLimit), len(health), shedFastLimit,
 			100*float64(slow)/float64(max(1, len(shed))), 100*float64(atLeast(health, shedFastLimit))/float64(max(1, len(health))))
 
+		runs++
+		if float64(slow)/float64(max(1, len(shed))) > float64(atLeast(health, shedFastLimit))/float64(max(1, len(health)))+shedOverFloor {
+			shedSlower++
+		}
 		if len(other) > 0 {
 			t.Errorf("run %d: calls failed other than by shedding: %v", attempt, other)
 		}
@@ -700,6 +713,9 @@ func TestOverload(t *testing.T) {
 			t.Errorf("in each of %d runs more than %.0f %% of shed answers took ≥ %v (last run: %d of %d; p99 %v); health checks, which do no work, took as long in %d of %d",
 				overloadAttempts, 100*shedSlowFraction, shedFastLimit, slow, len(shed), quantile(shed, 0.99), atLeast(health, shedFastLimit), len(health))
 		}
+	}
+	if strictShedBound() && !raceDetector && shedSlower == runs {
+		t.Errorf("in each of %d runs shed answers took ≥ %v more often than health checks by over %.0f points: the shed path adds to the transport's floor", runs, shedFastLimit, 100*shedOverFloor)
 	}
 	heapAfter := heapInuse()
 	sequential(t, src, lb.api, 100)
