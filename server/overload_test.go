@@ -655,15 +655,17 @@ func TestOverload(t *testing.T) {
 			attempt, len(results), elapsed.Round(time.Millisecond), dropped, overloadInFlight, len(accepted),
 			float64(len(accepted))/elapsed.Seconds(), float64(len(accepted))/elapsed.Seconds()/sustainable, len(shed), float64(len(shed))/elapsed.Seconds(), machine)
 		health := healthLatencies()
+		shedSlowFrac := float64(slow) / float64(max(1, len(shed)))
+		healthSlowFrac := float64(atLeast(health, shedFastLimit)) / float64(max(1, len(health)))
 		t.Logf("run %d: accepted p50 %v, p99 %v (%.1f× unloaded p99); shed p50 %v, p99 %v, max %v; %d of %d shed answers ≥ %v",
 			attempt, quantile(accepted, 0.5), quantile(accepted, 0.99), float64(quantile(accepted, 0.99))/float64(quantile(before, 0.99)),
 			quantile(shed, 0.5), quantile(shed, 0.99), quantile(shed, 1), slow, len(shed), shedFastLimit)
 		t.Logf("run %d: health checks meanwhile (never shed, no work): p50 %v, p99 %v, max %v; %d of %d ≥ %v (shed answers: %.1f %%, health checks: %.1f %%)",
 			attempt, quantile(health, 0.5), quantile(health, 0.99), quantile(health, 1), atLeast(health, shedFastLimit), len(health), shedFastLimit,
-			100*float64(slow)/float64(max(1, len(shed))), 100*float64(atLeast(health, shedFastLimit))/float64(max(1, len(health))))
+			100*shedSlowFrac, 100*healthSlowFrac)
 
 		runs++
-		if float64(slow)/float64(max(1, len(shed))) > float64(atLeast(health, shedFastLimit))/float64(max(1, len(health)))+shedOverFloor {
+		if shedSlowFrac > healthSlowFrac+shedOverFloor {
 			shedSlower++
 		}
 		if len(other) > 0 {

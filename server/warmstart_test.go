@@ -220,18 +220,7 @@ func TestWarmStartBadSensitivity(t *testing.T) {
 			tc.mut(w)
 			st := tpStateX(gas10X, 251, 5.05e6)
 			st.WarmStart = w
-			_, err := e.client.Flash(ctx, &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: st})
-			wantViolation(t, err, codes.InvalidArgument, tc.field)
-
-			resp, err := e.client.FlashBatch(ctx, &fugadv1.FlashBatchRequest{Fluid: gas10Fluid(), States: []*fugadv1.FlashState{tpStateX(gas10X, 251, 5.05e6), st}})
-			if err != nil {
-				t.Fatal(err)
-			}
-			items := resp.GetItems()
-			if items[0].GetStatus().GetCode() != int32(codes.OK) {
-				t.Errorf("the good neighbour failed: %v", items[0].GetStatus())
-			}
-			wantViolation(t, statusErr(items[1].GetStatus()), codes.InvalidArgument, "states[1]"+tc.field[len("state"):])
+			wantRejectedWarmStart(t, e, tpStateX(gas10X, 251, 5.05e6), st, tc.field)
 		})
 	}
 }
@@ -326,7 +315,6 @@ func phTwoPhase(t *testing.T, e *testEnv, k float64) (*fugadv1.FlashState, *fuga
 // item's own status.
 func TestWarmStartBadStateDerivatives(t *testing.T) {
 	e := newEnv(t, envOptions{})
-	ctx := testCtx(t)
 	st0, prev := phTwoPhase(t, e, 1.01)
 	good := prev.GetWarmStart()
 	const w, d = "state.warm_start.", "state.warm_start.state_derivatives."
@@ -354,18 +342,7 @@ func TestWarmStartBadStateDerivatives(t *testing.T) {
 			st := proto.Clone(st0).(*fugadv1.FlashState)
 			st.GetPh().MolarEnthalpyJPerMol /= 1.01
 			st.WarmStart = w
-			_, err := e.client.Flash(ctx, &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: st})
-			wantViolation(t, err, codes.InvalidArgument, tc.field)
-
-			resp, err := e.client.FlashBatch(ctx, &fugadv1.FlashBatchRequest{Fluid: gas10Fluid(), States: []*fugadv1.FlashState{st0, st}})
-			if err != nil {
-				t.Fatal(err)
-			}
-			items := resp.GetItems()
-			if items[0].GetStatus().GetCode() != int32(codes.OK) {
-				t.Errorf("the good neighbour failed: %v", items[0].GetStatus())
-			}
-			wantViolation(t, statusErr(items[1].GetStatus()), codes.InvalidArgument, "states[1]"+tc.field[len("state"):])
+			wantRejectedWarmStart(t, e, st0, st, tc.field)
 		})
 	}
 }
@@ -446,4 +423,26 @@ func TestSetStateWarmWithinBounds(t *testing.T) {
 			t.Errorf("%s: the warm start %v is rejected: %v", tc.name, ws, err)
 		}
 	}
+}
+
+// wantRejectedWarmStart sends bad, a state whose warm start has a bad
+// field (field, named as in a unary Flash), as a unary Flash and as the
+// second item of a FlashBatch after good: the unary call is answered
+// INVALID_ARGUMENT with a violation naming field, the batch item with its
+// own such status (field under states[1]), and the good item is solved.
+func wantRejectedWarmStart(t *testing.T, e *testEnv, good, bad *fugadv1.FlashState, field string) {
+	t.Helper()
+	ctx := testCtx(t)
+	_, err := e.client.Flash(ctx, &fugadv1.FlashRequest{Fluid: gas10Fluid(), State: bad})
+	wantViolation(t, err, codes.InvalidArgument, field)
+
+	resp, err := e.client.FlashBatch(ctx, &fugadv1.FlashBatchRequest{Fluid: gas10Fluid(), States: []*fugadv1.FlashState{good, bad}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	items := resp.GetItems()
+	if items[0].GetStatus().GetCode() != int32(codes.OK) {
+		t.Errorf("the good neighbour failed: %v", items[0].GetStatus())
+	}
+	wantViolation(t, statusErr(items[1].GetStatus()), codes.InvalidArgument, "states[1]"+field[len("state"):])
 }

@@ -120,11 +120,12 @@ func (s *Solver) CriticalPoints(ctx context.Context, z []float64, opts CriticalO
 	T := tpc
 	var res CriticalResult
 	// Scan from the vapour side (large κ) inward, warm-starting T.
+	lnHi, lnLo := fastmath.Log(hi), fastmath.Log(lo)
 	for j := range ng {
 		if err := ctx.Err(); err != nil {
 			return nil, &canceledError{stage: "critical point", err: err}
 		}
-		lk := fastmath.Log(hi) - (fastmath.Log(hi)-fastmath.Log(lo))*float64(j)/float64(ng-1)
+		lk := lnHi - (lnHi-lnLo)*float64(j)/float64(ng-1)
 		v := fastmath.Exp(lk) * bm
 		Ts, it, ok := s.spinodalT(v, T)
 		res.InnerIterations += it

@@ -4,9 +4,9 @@ import "math"
 
 // symEigenMin returns the smallest eigenvalue of the symmetric row-major
 // n×n matrix a and writes its unit eigenvector into u. It uses the cyclic
-// Jacobi method (Golub & Van Loan, alg. 8.5.3), which is unconditionally
-// convergent for symmetric matrices; a is overwritten and v (n×n) is
-// scratch.
+// Jacobi method (Golub & Van Loan, alg. 8.5.3, number from memory), which
+// is unconditionally convergent for symmetric matrices; a is overwritten
+// and v (n×n) is scratch.
 func symEigenMin(a []float64, n int, v, u []float64) float64 {
 	for i := range n {
 		for j := range n {

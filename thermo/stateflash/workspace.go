@@ -338,8 +338,7 @@ func (ws *Workspace) sensitivities() (bool, error) {
 	if !linalg.Cholesky(A, dim) {
 		return false, nil
 	}
-	linalg.CholSolve(A, dim, ws.bT[:dim])
-	linalg.CholSolve(A, dim, ws.bP[:dim])
+	linalg.CholSolve2(A, dim, ws.bT[:dim], ws.bP[:dim])
 	rt := eos.R * T
 	for p := range m - 1 {
 		fk := ws.fug[p+1]

@@ -4,7 +4,7 @@
 // and LU with partial pivoting for the Jacobians of the phase-envelope
 // tracer. Matrices are row-major slices, factored in place; nothing
 // allocates. Golub & Van Loan, Matrix Computations, 4th ed. (2013),
-// algorithms 3.4.1 and 4.2.2.
+// algorithms 3.4.1 and 4.2.2 (edition and algorithm numbers from memory).
 package linalg
 
 import "math"
@@ -16,7 +16,8 @@ import "math"
 // false, with a partly overwritten a, when a pivot is not positive and finite.
 //
 // The factor is formed by columns, right-looking (Golub & Van Loan,
-// Matrix Computations, 4th ed., alg. 4.2.2, outer-product form): column k
+// Matrix Computations, 4th ed., alg. 4.2.2 as recalled, outer-product
+// form): column k
 // of L is scaled and copied into row k's upper part, then subtracted from
 // the rows below it, two rows at a time sharing each load of the copy.
 // Every entry gets the same subtractions in the same order as in the
@@ -170,7 +171,8 @@ func SolveSPD(h []float64, n int, g, dx, work, sc []float64) (ok, shifted bool) 
 }
 
 // LUFactor factors the row-major m×m matrix a in place into L·U with
-// partial pivoting (Golub & Van Loan, Matrix Computations, alg. 3.4.1).
+// partial pivoting (Golub & Van Loan, Matrix Computations, alg. 3.4.1 as
+// recalled).
 // It reports false when a pivot is zero or not finite.
 func LUFactor(a []float64, m int, piv []int) bool {
 	a = a[:m*m]
