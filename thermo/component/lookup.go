@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+	"unicode/utf8"
 )
 
 // library is the parsed, indexed embedded table. It is built once at
@@ -185,18 +186,25 @@ func suggest(k string, max int) []string {
 	if k == "" {
 		return nil
 	}
+	rk := []rune(k)
+	limit := 3
+	switch n := len(rk); {
+	case n <= 3:
+		limit = 1
+	case n <= 6:
+		limit = 2
+	}
 	best := map[int]int{}
 	consider := func(i int, name string) {
-		d := levenshtein(k, name)
-		limit := 3
-		switch n := len([]rune(k)); {
-		case n <= 3:
-			limit = 1
-		case n <= 6:
-			limit = 2
-		}
+		d := limit + 1
 		if (len(k) >= 3 && strings.HasPrefix(name, k)) || (len(name) >= 3 && strings.HasPrefix(k, name)) {
-			d = min(d, 1)
+			d = 1
+		}
+		// The edit distance is at least the difference in length, so a
+		// name far shorter or longer than the query is settled without
+		// the quadratic table, and a long query costs one pass per name.
+		if diff := len(rk) - utf8.RuneCountInString(name); diff <= limit && -diff <= limit {
+			d = min(d, levenshtein(rk, []rune(name)))
 		}
 		if d > limit {
 			return
@@ -235,9 +243,8 @@ func suggest(k string, max int) []string {
 }
 
 // levenshtein returns the edit distance (insertions, deletions,
-// substitutions) between a and b, counted in runes.
-func levenshtein(a, b string) int {
-	ra, rb := []rune(a), []rune(b)
+// substitutions) between the rune sequences ra and rb.
+func levenshtein(ra, rb []rune) int {
 	prev := make([]int, len(rb)+1)
 	cur := make([]int, len(rb)+1)
 	for j := range prev {
