@@ -22,6 +22,7 @@ targets=(
 	thermo/component:FuzzPseudoFromMolarMass
 	thermo/component:FuzzDefine
 	thermo/eos:FuzzFugacity
+	server:FuzzDirectDecode
 	server:FuzzFugacityCoefficientsRequest
 	server:FuzzFlashRequest
 	server:FuzzFlashBatchRequest

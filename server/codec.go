@@ -31,6 +31,8 @@ import (
 //     which by the protobuf encoding's merge rule is the message
 //     proto.Unmarshal would build. Anything unusual (no fluid field, the
 //     field repeated, an error anywhere) takes proto.Unmarshal's own path.
+//     The rest of a flash request is decoded directly (decode.go) where
+//     its encoding allows.
 //   - Encoding. Answers above gRPC's pooling threshold are encoded into
 //     buffers of their own pool (encodeBuffers), which are handed out
 //     without being cleared: the encoding overwrites every byte that is
@@ -92,24 +94,26 @@ func (c *wireCodec) Unmarshal(data mem.BufferSlice, v any) error {
 	return proto.Unmarshal(b, m)
 }
 
-// fluidSetter returns the function that sets the fluid field (number 1)
-// of a request message that has one, or nil.
-func fluidSetter(m proto.Message) func(*fugadv1.Fluid) {
+// setFluid sets the fluid field (number 1) of a request message that has
+// one to f (nil: only reports whether it has one).
+func setFluid(m proto.Message, f *fugadv1.Fluid) bool {
 	switch r := m.(type) {
 	case *fugadv1.FlashRequest:
-		return func(f *fugadv1.Fluid) { r.Fluid = f }
+		r.Fluid = f
 	case *fugadv1.FlashBatchRequest:
-		return func(f *fugadv1.Fluid) { r.Fluid = f }
+		r.Fluid = f
 	case *fugadv1.FlashStreamRequest:
-		return func(f *fugadv1.Fluid) { r.Fluid = f }
+		r.Fluid = f
 	case *fugadv1.FugacityCoefficientsRequest:
-		return func(f *fugadv1.Fluid) { r.Fluid = f }
+		r.Fluid = f
 	case *fugadv1.SaturationPointRequest:
-		return func(f *fugadv1.Fluid) { r.Fluid = f }
+		r.Fluid = f
 	case *fugadv1.PhaseEnvelopeRequest:
-		return func(f *fugadv1.Fluid) { r.Fluid = f }
+		r.Fluid = f
+	default:
+		return false
 	}
-	return nil
+	return true
 }
 
 // fluidFieldNumber is the number of the fluid field in every request
@@ -184,8 +188,7 @@ func newFluidMemo() *fluidMemo {
 // unmarshal decodes b into m through the memo and reports whether it did;
 // when it did not, m is to be decoded by proto.Unmarshal (which resets it).
 func (f *fluidMemo) unmarshal(b []byte, m proto.Message) bool {
-	set := fluidSetter(m)
-	if set == nil {
+	if !setFluid(m, nil) {
 		return false
 	}
 	start, end, val, ok := fluidField(b)
@@ -197,11 +200,16 @@ func (f *fluidMemo) unmarshal(b []byte, m proto.Message) bool {
 		return false
 	}
 	proto.Reset(m)
+	if decodeRest(b[:start], m) && decodeRest(b[end:], m) {
+		setFluid(m, e.msg)
+		return true
+	}
+	proto.Reset(m)
 	merge := proto.UnmarshalOptions{Merge: true}
 	if merge.Unmarshal(b[:start], m) != nil {
 		return false
 	}
-	set(e.msg)
+	setFluid(m, e.msg)
 	return merge.Unmarshal(b[end:], m) == nil
 }
 
