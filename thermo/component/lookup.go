@@ -183,44 +183,7 @@ func (c *Component) clone() Component {
 // distance of 1. Each component counts once, by its best name; ties are
 // broken by ID, so the order is deterministic.
 func suggest(k string, max int) []string {
-	if k == "" {
-		return nil
-	}
-	rk := []rune(k)
-	limit := 3
-	switch n := len(rk); {
-	case n <= 3:
-		limit = 1
-	case n <= 6:
-		limit = 2
-	}
-	best := map[int]int{}
-	consider := func(i int, name string) {
-		d := limit + 1
-		if (len(k) >= 3 && strings.HasPrefix(name, k)) || (len(name) >= 3 && strings.HasPrefix(k, name)) {
-			d = 1
-		}
-		// The edit distance is at least the difference in length, so a
-		// name far shorter or longer than the query is settled without
-		// the quadratic table, and a long query costs one pass per name.
-		if diff := len(rk) - utf8.RuneCountInString(name); diff <= limit && -diff <= limit {
-			d = min(d, levenshtein(rk, []rune(name)))
-		}
-		if d > limit {
-			return
-		}
-		if old, ok := best[i]; !ok || d < old {
-			best[i] = d
-		}
-	}
-	for key, i := range library.byKey {
-		consider(i, key)
-	}
-	for key, is := range library.ambiguous {
-		for _, i := range is {
-			consider(i, key)
-		}
-	}
+	best := suggestScores(k, true)
 	idx := make([]int, 0, len(best))
 	for i := range best {
 		idx = append(idx, i)
@@ -240,6 +203,52 @@ func suggest(k string, max int) []string {
 		out[n] = library.comps[i].ID
 	}
 	return out
+}
+
+// suggestScores maps each qualifying component (index into library.comps)
+// to its best score by suggest's rule. With bounded, a name whose length
+// differs from k's by more than the distance limit skips the edit-distance
+// table: the distance is at least the difference in length, so such a
+// name qualifies only as a prefix, and a long query costs one pass per
+// name. Without, every name gets the full table (the rule as written, for
+// the test of the bound).
+func suggestScores(k string, bounded bool) map[int]int {
+	best := map[int]int{}
+	if k == "" {
+		return best
+	}
+	rk := []rune(k)
+	limit := 3
+	switch n := len(rk); {
+	case n <= 3:
+		limit = 1
+	case n <= 6:
+		limit = 2
+	}
+	consider := func(i int, name string) {
+		d := limit + 1
+		if (len(k) >= 3 && strings.HasPrefix(name, k)) || (len(name) >= 3 && strings.HasPrefix(k, name)) {
+			d = 1
+		}
+		if diff := len(rk) - utf8.RuneCountInString(name); !bounded || (diff <= limit && -diff <= limit) {
+			d = min(d, levenshtein(rk, []rune(name)))
+		}
+		if d > limit {
+			return
+		}
+		if old, ok := best[i]; !ok || d < old {
+			best[i] = d
+		}
+	}
+	for key, i := range library.byKey {
+		consider(i, key)
+	}
+	for key, is := range library.ambiguous {
+		for _, i := range is {
+			consider(i, key)
+		}
+	}
+	return best
 }
 
 // levenshtein returns the edit distance (insertions, deletions,

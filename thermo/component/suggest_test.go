@@ -8,62 +8,9 @@ import (
 	"testing"
 )
 
-// fullSuggest is suggest without the length bound: the full edit-distance
-// table for every name, as the documented rule reads.
-func fullSuggest(k string, max int) []string {
-	if k == "" {
-		return nil
-	}
-	limit := 3
-	switch n := len([]rune(k)); {
-	case n <= 3:
-		limit = 1
-	case n <= 6:
-		limit = 2
-	}
-	best := map[int]int{}
-	consider := func(i int, name string) {
-		d := levenshtein([]rune(k), []rune(name))
-		if (len(k) >= 3 && strings.HasPrefix(name, k)) || (len(name) >= 3 && strings.HasPrefix(k, name)) {
-			d = min(d, 1)
-		}
-		if d > limit {
-			return
-		}
-		if old, ok := best[i]; !ok || d < old {
-			best[i] = d
-		}
-	}
-	for key, i := range library.byKey {
-		consider(i, key)
-	}
-	for key, is := range library.ambiguous {
-		for _, i := range is {
-			consider(i, key)
-		}
-	}
-	idx := make([]int, 0, len(best))
-	for i := range best {
-		idx = append(idx, i)
-	}
-	sort.Slice(idx, func(a, b int) bool {
-		if best[idx[a]] != best[idx[b]] {
-			return best[idx[a]] < best[idx[b]]
-		}
-		return library.comps[idx[a]].ID < library.comps[idx[b]].ID
-	})
-	if len(idx) > max {
-		idx = idx[:max]
-	}
-	out := make([]string, len(idx))
-	for n, i := range idx {
-		out[n] = library.comps[i].ID
-	}
-	return out
-}
-
 // TestSuggestLengthBound checks that skipping names whose length differs
-// from the query's by more than the distance limit changes no suggestion:
+// from the query's by more than the distance limit changes no score (and
+// so no suggestion):
 // over every library name with one, two and four edits, over prefixes and
 // extensions, and over random strings.
 func TestSuggestLengthBound(t *testing.T) {
@@ -109,11 +56,11 @@ func TestSuggestLengthBound(t *testing.T) {
 	differ := 0
 	for _, q := range queries {
 		k := normalize(q)
-		got, want := suggest(k, 5), fullSuggest(k, 5)
+		got, want := suggestScores(k, true), suggestScores(k, false)
 		if !reflect.DeepEqual(got, want) {
 			differ++
 			if differ <= 5 {
-				t.Errorf("suggest(%q) = %q, full table gives %q", k, got, want)
+				t.Errorf("scores of %q: %v with the length bound, %v with the full table", k, got, want)
 			}
 		}
 	}
