@@ -15,11 +15,13 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 
 fuzztime="${FUZZTIME:-10s}"
-# Go minimises every new interesting input, for up to 60 s each by
-# default, and counts none of those runs: a worker minimising a long
-# string can stall a 10 s run for most of its window (and is then the
-# worker that misses the stop, below). Inputs are small, so a short
-# budget keeps the window for fuzzing.
+# Go minimises every new interesting input before it keeps it (Go's own
+# script test test_fuzz_minimize_interesting.txt), each attempt for up to
+# -fuzzminimizetime, 60 s by default (`go help testflag`). The fuzz status
+# line counts no executions meanwhile: a worker minimising a long string
+# can stall a 10 s run for most of its window (and is then the worker that
+# misses the stop, below). Inputs are small, so a short budget keeps the
+# window for fuzzing.
 minimizetime="${FUZZMINIMIZETIME:-2s}"
 
 # package:target, in the order cheapest first.
@@ -60,8 +62,9 @@ for entry in "${targets[@]}"; do
 		[ "$status" -eq 0 ] && break
 		# Go's fuzzing coordinator can fail a target at the end of a
 		# -fuzztime window with a bare "context deadline exceeded" when a
-		# worker is slow to acknowledge the stop (golang/go#51484): no
-		# input failed and none was written. That one signature is run
+		# worker is slow to acknowledge the stop (the Go issue other
+		# projects' trackers cite for it is golang/go#51484, not read
+		# here): no input failed and none was written. That one signature is run
 		# again once; any other failure, or the same one twice, stops here.
 		if [ "$try" -eq 1 ] && grep -q 'context deadline exceeded' "$log" && ! grep -q 'Failing input written' "$log"; then
 			printf '== %s: the fuzzing coordinator missed its own deadline and wrote no failing input; running it once more\n' "$name"
