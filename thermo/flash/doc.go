@@ -69,6 +69,16 @@
 //
 //	max_{i,α,β} |ln f_i,α − ln f_i,β| ≤ Options.Tolerance (default 1e-10).
 //
+// Two phases of one composition satisfy that at every state (the trivial
+// solution): a split that converges with two phases whose
+// Σ_i (ln x_i,α − ln x_i,β)² < 1e-12 is not a split. Of two phases it
+// leaves one (the warm path and Split then report no split; the cold path
+// tries its next start), of three the smaller of the pair is removed and
+// the rest solved again. A warm start carried across a bubble or dew point
+// is what drives Newton's method there: the amount of the phase that
+// should vanish stays just above the removal bound while its composition
+// runs into the other phase's.
+//
 // Three phases: when the converged two-phase split fails the stability
 // test, the trial that proved it unstable is added and the amounts are
 // found by Michelsen's (1994) convex minimisation of

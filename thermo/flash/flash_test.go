@@ -264,6 +264,62 @@ func TestWarmMatchesCold(t *testing.T) {
 	}
 }
 
+// TestWarmNoTrivialSplit: a two-phase estimate carried across the bubble
+// point of a narrow-boiling mixture (propane with 1 % n-butane at 1 MPa,
+// bubble and dew points about 0.65 K apart) must not converge onto the
+// trivial solution, two phases of the feed's composition, which satisfies
+// the equal-fugacity equations at every state. Below the bubble point the
+// warm flash gives the cold one-phase answer and Split declines; at every
+// temperature the warm answer is the cold one and no two returned phases
+// coincide.
+func TestWarmNoTrivialSplit(t *testing.T) {
+	mx := fluid(t, eos.PR78, "propane", "n-butane")
+	z := []float64{0.99, 0.01}
+	ws, src, cold, warm := NewWorkspace(mx), NewResult(mx), NewResult(mx), NewResult(mx)
+	ctx := context.Background()
+	if err := ws.PT(ctx, 300.697, 1e6, z, Options{}, nil, src); err != nil {
+		t.Fatal(err)
+	}
+	if len(src.Phases) != 2 {
+		t.Fatalf("300.697 K: %d phases, want 2", len(src.Phases))
+	}
+	est := src.Estimate()
+	bubble := math.Inf(1)
+	for k := range 301 {
+		T := 299.5 + 0.0075*float64(k)
+		if err := ws.PT(ctx, T, 1e6, z, Options{}, nil, cold); err != nil {
+			t.Fatal(err)
+		}
+		if len(cold.Phases) == 2 {
+			bubble = min(bubble, T)
+		}
+		if err := ws.PT(ctx, T, 1e6, z, Options{}, &est, warm); err != nil {
+			t.Fatal(err)
+		}
+		sameAnswer(t, cold, warm)
+		if len(warm.Phases) == 2 {
+			d := 0.0
+			for i := range z {
+				e := math.Log(warm.Phases[0].X[i] / warm.Phases[1].X[i])
+				d += e * e
+			}
+			if d < 1e-10 {
+				t.Fatalf("%g K: two phases of one composition %v, %v (%v)", T, warm.Phases[0].X, warm.Phases[1].X, warm.Report.Path)
+			}
+		}
+		ok, err := ws.Split(ctx, T, 1e6, z, Options{}, &est, warm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ok && len(cold.Phases) == 1 {
+			t.Fatalf("%g K (one phase): Split converged to %v, %v", T, warm.Phases[0].X, warm.Phases[1].X)
+		}
+	}
+	if !(bubble > 300 && bubble < 300.6) {
+		t.Fatalf("bubble point near %g K, expected between 300 and 300.6 K", bubble)
+	}
+}
+
 func sameAnswer(t testing.TB, a, b *Result) {
 	t.Helper()
 	if len(a.Phases) != len(b.Phases) {

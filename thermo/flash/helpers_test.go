@@ -79,6 +79,21 @@ func checkResult(t testing.TB, ws *Workspace, res *Result, z []float64) {
 			t.Fatalf("T=%g P=%g: material balance of %d: %.15g vs %.15g", res.T, res.P, i, s, z[i]/sz)
 		}
 	}
+	// No two phases of one composition (a trivial solution).
+	for k := range res.Phases {
+		for l := k + 1; l < len(res.Phases); l++ {
+			d := 0.0
+			for i := range n {
+				if a, b := res.Phases[k].X[i], res.Phases[l].X[i]; a > 0 && b > 0 {
+					e := math.Log(a / b)
+					d += e * e
+				}
+			}
+			if d < 1e-10 {
+				t.Fatalf("T=%g P=%g: phases %d and %d coincide: %v, %v", res.T, res.P, k, l, res.Phases[k].X, res.Phases[l].X)
+			}
+		}
+	}
 	if len(res.Phases) > 1 && !(res.Report.Residual <= 1e-10) {
 		t.Fatalf("T=%g P=%g: residual %g", res.T, res.P, res.Report.Residual)
 	}

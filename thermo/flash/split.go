@@ -24,6 +24,11 @@ const (
 	ssMax        = 5     // SS steps after which Newton is tried regardless
 	demEvery     = 5     // dominant-eigenvalue extrapolation every demEvery SS steps
 	betaVanish   = 1e-12 // a phase with β below this is removed
+	// sameTol: two phases with Σ_i (ln x_i,α − ln x_i,β)² below it are one
+	// phase (a trivial solution of the equal-fugacity equations, which any
+	// split of identical phases satisfies; Michelsen 1982b). Genuine
+	// splits that close lie within about 1e-6 in K of a critical point.
+	sameTol = 1e-12
 	// lazyDN: a Newton step from residual r is expected to converge when
 	// r² < lazyDN·tolerance (quadratic convergence with a modest constant).
 	lazyDN = 0.1
@@ -206,6 +211,27 @@ func (ws *Workspace) solveSplit(newtonFirst, fresh bool) (splitStatus, error) {
 			return splitFail, err
 		}
 		if resid <= ws.set.tol {
+			if k := ws.duplicate(); k >= 0 {
+				// Converged onto a trivial solution: two phases of one
+				// composition. Two phases are one; of three, the
+				// smaller of the pair goes and the rest is solved again.
+				ws.facOK = false
+				if ws.m == 2 {
+					return splitSingle, nil
+				}
+				ws.removePhase(k)
+				ws.setMoles()
+				if err := ws.evalAll(0); err != nil {
+					return splitFail, err
+				}
+				newton, ss = false, 0
+				if ws.m == 2 {
+					ws.syncK()
+					tp = eos.WantT | eos.WantP
+				}
+				resid = ws.residual()
+				continue
+			}
 			if ws.betaInside() {
 				ws.sensitivities()
 				if !ws.sensOK && it == 0 && ws.warmSens && ws.m == 2 {
@@ -329,6 +355,28 @@ func (ws *Workspace) betaInside() bool {
 		}
 	}
 	return true
+}
+
+// duplicate returns the smaller (in amount) of two phases whose
+// compositions coincide to sameTol, or −1.
+func (ws *Workspace) duplicate() int {
+	for k := 0; k < ws.m; k++ {
+		for l := k + 1; l < ws.m; l++ {
+			a, b := ws.ph[k].lnx, ws.ph[l].lnx
+			d := 0.0
+			for _, i := range ws.act {
+				e := a[i] - b[i]
+				d += e * e
+			}
+			if d < sameTol {
+				if ws.ph[k].beta < ws.ph[l].beta {
+					return k
+				}
+				return l
+			}
+		}
+	}
+	return -1
 }
 
 // vanished returns a phase whose amount fell below betaVanish, or −1.
