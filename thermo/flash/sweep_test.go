@@ -121,3 +121,68 @@ func sameSplit(a, b *Result) bool {
 	}
 	return true
 }
+
+// TestSweepFarEstimates warm-starts the five sweep mixtures on a 40 × 40
+// grid (the same ranges as TestSweep) from two- and three-phase results
+// 3 and 5 grid steps away in T, 3 in P and 2 in both: estimates that
+// cross bubble and dew points and the edges of the three-phase region,
+// as after a large step of a simulation. Every warm answer must be the
+// cold one (phase count, β to 1e-6) and pass checkResult. Before the
+// split rejected trivial solutions, a few such starts of the lean gas,
+// the gas condensate and the CO2-rich stream returned two phases of one
+// composition where the cold flash finds one phase.
+func TestSweepFarEstimates(t *testing.T) {
+	nT, nP := 40, 40
+	if testing.Short() {
+		nT, nP = 15, 15
+	}
+	ctx := context.Background()
+	for _, f := range sweepFluids(t) {
+		ws := NewWorkspace(f.mx)
+		cold := make([]*Result, nT*nP)
+		for a := range nT {
+			T := 150 + 450*float64(a)/float64(nT-1)
+			for b := range nP {
+				P := 1e5 * math.Pow(300, float64(b)/float64(nP-1))
+				r := NewResult(f.mx)
+				if err := ws.PT(ctx, T, P, f.z, Options{}, nil, r); err == nil {
+					cold[a*nP+b] = r
+				}
+			}
+		}
+		warm := NewResult(f.mx)
+		starts, fallback := 0, 0
+		for a := range nT {
+			for b := range nP {
+				c := cold[a*nP+b]
+				if c == nil {
+					continue
+				}
+				for _, d := range [][2]int{{-3, 0}, {3, 0}, {-5, 0}, {5, 0}, {0, -3}, {0, 3}, {-2, 2}, {2, -2}} {
+					a2, b2 := a+d[0], b+d[1]
+					if a2 < 0 || a2 >= nT || b2 < 0 || b2 >= nP {
+						continue
+					}
+					nb := cold[a2*nP+b2]
+					if nb == nil || len(nb.Phases) < 2 {
+						continue
+					}
+					e := nb.Estimate()
+					starts++
+					if err := ws.PT(ctx, c.T, c.P, f.z, Options{}, &e, warm); err != nil {
+						t.Errorf("%s T=%g P=%g from %v: warm start failed where cold converged: %v", f.name, c.T, c.P, d, err)
+						continue
+					}
+					checkResult(t, ws, warm, f.z)
+					if warm.Report.Path == PathWarmFallback {
+						fallback++
+					}
+					if !sameSplit(c, warm) {
+						t.Errorf("%s T=%.2f P=%.4g from %v: cold %d phases β0 %.9f, warm (%v) %d phases β0 %.9f", f.name, c.T, c.P, d, len(c.Phases), c.Phases[0].Beta, warm.Report.Path, len(warm.Phases), warm.Phases[0].Beta)
+					}
+				}
+			}
+		}
+		t.Logf("%-15s %d far warm starts, %d fell back to the cold path", f.name, starts, fallback)
+	}
+}
