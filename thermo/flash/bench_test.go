@@ -173,3 +173,65 @@ func BenchmarkLnPhiReference(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkFlashWarmTwoPhaseEvaluationsOnly replays the ln φ evaluations
+// of one BenchmarkFlashWarmTwoPhase flash (the same compositions and
+// derivative requests, in the same order) and nothing else: the part of
+// the warm flash no bookkeeping, linear algebra or property work can
+// remove at its evaluation count. of-warm-flash is the replay's time over
+// the warm flash's, both timed in the same run (fastest of 20 batches).
+func BenchmarkFlashWarmTwoPhaseEvaluationsOnly(b *testing.B) {
+	mx, z := benchGas(b)
+	ws, res := NewWorkspace(mx), NewResult(mx)
+	ctx := context.Background()
+	prev := NewResult(mx)
+	if err := ws.PT(ctx, 249.5, 5e6*0.995, z, Options{}, nil, prev); err != nil {
+		b.Fatal(err)
+	}
+	est := prev.Estimate()
+	type call struct {
+		x    []float64
+		want eos.Want
+	}
+	var calls []call
+	ws.evalHook = func(x []float64, want eos.Want) {
+		calls = append(calls, call{append([]float64(nil), x...), want})
+	}
+	if err := ws.PT(ctx, 250, 5e6, z, Options{}, &est, res); err != nil {
+		b.Fatal(err)
+	}
+	ws.evalHook = nil
+	if res.Report.Path != PathWarm || len(calls) != res.Report.LnPhiEvaluations {
+		b.Fatalf("path %v, %d calls recorded for %d evaluations", res.Report.Path, len(calls), res.Report.LnPhiEvaluations)
+	}
+	ews, f := mx.NewWorkspace(), mx.NewFugacity()
+	replay := func() {
+		for _, c := range calls {
+			mx.FugacityTrusted(ews, 250, 5e6, c.x, eos.RootMinGibbs, c.want, f)
+		}
+	}
+	bestOf := func(run func()) float64 {
+		best := time.Duration(1 << 62)
+		for range 20 {
+			t0 := time.Now()
+			for range 200 {
+				run()
+			}
+			best = min(best, time.Since(t0))
+		}
+		return float64(best.Nanoseconds()) / 200
+	}
+	flashNs := bestOf(func() {
+		if err := ws.PT(ctx, 250, 5e6, z, Options{}, &est, res); err != nil {
+			b.Fatal(err)
+		}
+	})
+	replayNs := bestOf(replay)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for b.Loop() {
+		replay()
+	}
+	b.ReportMetric(float64(len(calls)), "lnphi/op")
+	b.ReportMetric(replayNs/flashNs, "of-warm-flash")
+}

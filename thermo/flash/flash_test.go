@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"reflect"
 	"testing"
 
 	"github.com/fugad/fugad/thermo/eos"
@@ -379,6 +380,59 @@ func TestOverallProperties(t *testing.T) {
 	for i := range 2 {
 		if !approx.Abs(res.LnK[i], math.Log(res.Phases[0].X[i]/res.Phases[1].X[i]), 1e-12) {
 			t.Errorf("LnK[%d] = %g", i, res.LnK[i])
+		}
+	}
+}
+
+// TestPhasePropertiesAsDirect: each phase's properties, which the flash
+// builds from the phase's last evaluation (PropertiesFromFugacity), are
+// those of a separate property evaluation of the returned composition at
+// T and P: cold and warm, two and three phases, with and without an
+// aqueous phase. The separate evaluation solves the cubic afresh, so its
+// root may differ from the flash's in the last bits; every field must
+// agree to 1e-11 (relative), far below what a stale evaluation or another
+// root would change.
+func TestPhasePropertiesAsDirect(t *testing.T) {
+	gas, zg := benchGas(t)
+	wet, zw := benchGasWater(t)
+	ctx := context.Background()
+	for _, c := range []struct {
+		mx     *eos.Mixture
+		z      []float64
+		T, P   float64
+		phases int
+	}{{gas, zg, 250, 5e6, 2}, {gas, zg, 230, 8.5e6, 2}, {gas, zg, 350, 5e6, 1}, {wet, zw, 310, 7e6, 3}, {wet, zw, 450, 2e6, 2}} {
+		ws, res, prev := NewWorkspace(c.mx), NewResult(c.mx), NewResult(c.mx)
+		if err := ws.PT(ctx, c.T-0.5, c.P*0.995, c.z, Options{}, nil, prev); err != nil {
+			t.Fatal(err)
+		}
+		est := prev.Estimate()
+		for _, warm := range []*Estimate{nil, &est} {
+			if err := ws.PT(ctx, c.T, c.P, c.z, Options{}, warm, res); err != nil {
+				t.Fatal(err)
+			}
+			if len(res.Phases) != c.phases {
+				t.Fatalf("%g K, %g Pa: %d phases, want %d", c.T, c.P, len(res.Phases), c.phases)
+			}
+			for k, p := range res.Phases {
+				mx := c.mx
+				if ws.aqueous(p.X) {
+					mx = ws.aq
+				}
+				want := mx.PropertiesTrusted(mx.NewWorkspace(), c.T, c.P, p.X, eos.RootMinGibbs)
+				g, w := reflect.ValueOf(p.Props), reflect.ValueOf(want)
+				same := true
+				for f := range g.NumField() {
+					if a, ok := g.Field(f).Interface().(float64); ok {
+						same = same && approx.Rel(a, w.Field(f).Interface().(float64), 1e-11)
+					} else {
+						same = same && g.Field(f).Interface() == w.Field(f).Interface()
+					}
+				}
+				if !same {
+					t.Errorf("%g K, %g Pa, warm %v, phase %d (%v):\n got %+v\nwant %+v", c.T, c.P, warm != nil, k, p.Label, p.Props, want)
+				}
+			}
 		}
 	}
 }

@@ -51,6 +51,9 @@ type Workspace struct {
 	aq  *eos.Mixture
 	aws *eos.Workspace
 
+	// evalHook, when set (by tests), sees every composition evaluated.
+	evalHook func(x []float64, want eos.Want)
+
 	// call state
 	ctx    context.Context
 	set    settings
@@ -213,6 +216,9 @@ func (ws *Workspace) EOSWorkspace() *eos.Workspace { return ws.ews }
 // checked one is run to report it.
 func (ws *Workspace) eval(x []float64, want eos.Want, f *eos.Fugacity) error {
 	ws.rep.LnPhiEvaluations++
+	if ws.evalHook != nil {
+		ws.evalHook(x, want)
+	}
 	mx, ews := ws.mx, ws.ews
 	if ws.aqueous(x) {
 		mx, ews = ws.aq, ws.aws
