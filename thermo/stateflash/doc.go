@@ -33,6 +33,12 @@
 // a full T–P flash from its own split, and if that flash does not return
 // the same split (the path was metastable) the outer iteration is rerun
 // with every inner flash tested, so the shortcut never changes the answer.
+// A metastable path is also caught inside the outer iteration: when the
+// bracket between an untested end and the other holds a jump (end values
+// further apart than four times the larger end derivative allows over the
+// bracket's width), the untested ends are dropped for the last tested
+// ones and every later inner flash is tested. Without that, the bracket collapsed between a metastable
+// two-phase split and the stable three-phase state, and the call failed.
 //
 // Single-phase shortcut. The single-phase equation of state is solved for
 // the specification first — h(T, P) = H by Newton with Cp, s(T, P) = S
@@ -47,8 +53,14 @@
 //
 // by Newton's method with the exact derivative of the equilibrium state,
 // kept inside a bracket: a step leaving the bracket, or two steps that
-// fail to halve the residual, are replaced by a secant step between the
-// bracket ends (kept off them) or a bisection. H(T) at fixed P and V(P) at
+// fail to halve the residual, or a residual that has not halved in two
+// steps (Newton steps alternating across a kink of F), are replaced by a
+// secant step between the bracket ends (kept off them) or a bisection.
+// An inner flash that fails at a trial point bounds the search there and
+// the next trial is halfway back to the last point evaluated (at most
+// eight times); the model has states, far below the normal freezing points,
+// where the T–P flash does not converge, and a long first step can land
+// there. H(T) at fixed P and V(P) at
 // fixed T are monotone (thermal and mechanical stability), so the bracket
 // always holds the solution, including where the derivative is huge or
 // jumps at a phase boundary, as for narrow-boiling mixtures. U–V uses

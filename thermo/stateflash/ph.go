@@ -2,6 +2,7 @@ package stateflash
 
 import (
 	"context"
+	"errors"
 	"math"
 
 	"github.com/fugad/fugad/thermo/eos"
@@ -299,6 +300,12 @@ const (
 	looseNext = 10 * predictTol
 )
 
+// jumpRatio and maxInnerRetries: see solve1D.
+const (
+	jumpRatio       = 4
+	maxInnerRetries = 8
+)
+
 // jumpBisections is the number of bisections in a row after which the
 // single-phase solve takes the bracket to hold a jump of h(T).
 const jumpBisections = 3
@@ -376,11 +383,38 @@ func (ws *Workspace) evalOuter(y float64, flashed bool) (F, dF, scale float64, e
 func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 	loB, hiB := lo, hi
 	flo, fhi := math.NaN(), math.NaN()
-	prev := math.Inf(1)
+	prev, prev2 := math.Inf(1), math.Inf(1)
 	slow := 0
 	accel := ws.lazy
 	havePrev := false
 	yp, dFp, mp := 0.0, 0.0, 0
+	// The bracket ends set by tested inner flashes (vlo, vhi), and
+	// whether lo and hi came from untested splits (loUnv, hiUnv). A
+	// bracket with an untested end whose values differ by more than
+	// jumpRatio times the larger end derivative allows over its width
+	// holds a jump: untested splits have followed a metastable branch (a
+	// two-phase split where the stable state has a third phase, say) or
+	// hopped between branches. Their ends are then dropped for the tested
+	// ones and every later inner flash is tested.
+	vlo, vflo, vhi, vfhi := lo, flo, hi, fhi
+	loUnv, hiUnv := false, false
+	dlo, dhi := math.NaN(), math.NaN()
+	// An inner flash that fails to converge at a trial point (far from
+	// the answer, say, where the model has states no flash should meet)
+	// does not end the solve while another point has been evaluated: the
+	// failed point bounds the search (failLo, failHi), and the next trial
+	// lies halfway back towards the last good point, yGood. After
+	// maxInnerRetries such failures the last one is returned.
+	failLo, failHi := math.Inf(-1), math.Inf(1)
+	yGood, haveGood, retries := 0.0, false, 0
+	distrust := func() {
+		lo, flo, hi, fhi = vlo, vflo, vhi, vfhi
+		dlo, dhi = math.NaN(), math.NaN()
+		loUnv, hiUnv = false, false
+		ws.lazy, accel, havePrev = false, false, false
+		slow = 0
+		prev, prev2 = math.Inf(1), math.Inf(1)
+	}
 	for it := 0; it < ws.set.maxIt; it++ {
 		if err := ws.stop(); err != nil {
 			return y, err
@@ -390,22 +424,46 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 		}
 		F, dF, scale, err := ws.evalOuter(y, flashed && it == 0)
 		if err != nil {
-			return y, err
+			var ce *ConvergenceError
+			if !haveGood || retries >= maxInnerRetries || !errors.As(err, &ce) || ce.Stage != innerStage {
+				return y, err
+			}
+			retries++
+			if y < yGood {
+				failLo = math.Max(failLo, y)
+			} else {
+				failHi = math.Min(failHi, y)
+			}
+			y = 0.5 * (y + yGood)
+			ws.haveEst = false
+			continue
 		}
+		yGood, haveGood = y, true
 		ws.o.resid = math.Abs(F) / scale
 		if ws.o.resid <= ws.set.tol {
 			return y, nil
 		}
+		m := len(ws.fres.Phases)
+		unv := ws.unverified
 		if F < 0 {
-			lo, flo = y, F
+			lo, flo, dlo, loUnv = y, F, dF, unv
+			if !unv {
+				vlo, vflo = y, F
+			}
 			if y >= hiB {
 				return y, ws.rangeErr(y)
 			}
 		} else {
-			hi, fhi = y, F
+			hi, fhi, dhi, hiUnv = y, F, dF, unv
+			if !unv {
+				vhi, vfhi = y, F
+			}
 			if y <= loB {
 				return y, ws.rangeErr(y)
 			}
+		}
+		if (loUnv || hiUnv) && dlo > 0 && dhi > 0 && fhi-flo > jumpRatio*math.Max(dlo, dhi)*(hi-lo) {
+			distrust()
 		}
 		if hi-lo <= 1e-14*math.Max(math.Abs(lo), math.Abs(hi)) {
 			if ws.o.resid <= 1e3*ws.set.tol {
@@ -426,7 +484,12 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 		} else {
 			slow = 0
 		}
-		prev = math.Abs(F)
+		// Newton steps that alternate across a kink of F (a phase boundary
+		// inside the bracket), each landing on the other side about as far
+		// from the root as the last, halve |F| every other step at best:
+		// then the bracket is bisected.
+		pingPong := math.Abs(F) > 0.5*prev2
+		prev2, prev = prev, math.Abs(F)
 		if finite(dF) && dF > 0 && havePrev && mp == len(ws.fres.Phases) {
 			// Quadratic model through the derivative of the previous
 			// point: F(y+s) ≈ F + F′s + c·s², c = (F′ − F′_prev)/(2(y − y_prev)).
@@ -440,7 +503,6 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 				}
 			}
 		}
-		m := len(ws.fres.Phases)
 		havePrev = accel && finite(dF) && dF > 0 && m >= 2
 		yp, dFp, mp = y, dF, m
 		if ws.lazy && ws.unverified && finite(dF) && dF > 0 && ws.o.resid <= predictTol && next > lo && next < hi {
@@ -449,12 +511,12 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 			// full T–P flash that confirms the final state.
 			ws.lazy = false
 		}
-		if !(next > lo && next < hi) || slow >= 2 {
+		if !(next > lo && next < hi) || slow >= 2 || pingPong && !math.IsNaN(flo) && !math.IsNaN(fhi) {
 			switch {
 			case !math.IsNaN(flo) && !math.IsNaN(fhi):
 				w := hi - lo
 				next = lo - flo*w/(fhi-flo)
-				if slow >= 2 || !(next > lo+0.05*w && next < hi-0.05*w) {
+				if slow >= 2 || pingPong || !(next > lo+0.05*w && next < hi-0.05*w) {
 					next = 0.5 * (lo + hi)
 				}
 				slow = 0
@@ -463,6 +525,11 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 			default:
 				next = math.Max(y-maxStep, loB)
 			}
+		}
+		if next <= failLo {
+			next = 0.5 * (y + failLo)
+		} else if next >= failHi {
+			next = 0.5 * (y + failHi)
 		}
 		y = next
 	}
@@ -484,11 +551,15 @@ func (ws *Workspace) convErr(stage string, it int, cause error) error {
 		T: ws.fres.T, P: ws.fres.P, Residual: ws.o.resid, Phases: len(ws.fres.Phases), Err: cause}
 }
 
+// innerStage is the Stage of a ConvergenceError wrapping a failed inner
+// T–P flash.
+const innerStage = "inner T–P flash"
+
 // innerErr wraps a failed inner flash; input and cancellation errors pass
 // through unchanged.
 func (ws *Workspace) innerErr(err error, T, P float64) error {
 	if solverFailure(err) {
-		return &ConvergenceError{Spec: ws.spec, Stage: "inner T–P flash", Iterations: ws.rep.OuterIterations,
+		return &ConvergenceError{Spec: ws.spec, Stage: innerStage, Iterations: ws.rep.OuterIterations,
 			T: T, P: P, Residual: ws.o.resid, Phases: len(ws.fres.Phases), Err: err}
 	}
 	return err
