@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"github.com/fugad/fugad/thermo/component"
@@ -184,5 +185,110 @@ func TestSweepFarEstimates(t *testing.T) {
 			}
 		}
 		t.Logf("%-15s %d far warm starts, %d fell back to the cold path", f.name, starts, fallback)
+	}
+}
+
+// TestStabilityRandomStarts is a check of the stability analysis that
+// shares none of its trial choices: at random states of each sweep stream
+// (fixed seed), the modified tangent-plane distance
+//
+//	tm(W) = 1 + Σ_i W_i (ln W_i + ln φ_i(w) − d_i − 1),  w = W/ΣW,
+//
+// is minimised by plain successive substitution, ln W_i ← d_i − ln φ_i(w)
+// (Michelsen 1982a), from every pure-component start and 20 random
+// compositions, with the same model evaluation as the flash. Against the
+// feed of every state the flash splits, some start must reach tm < 0 (the
+// search can find an instability); against the first phase of every
+// result none may reach tm < −1e-6 (no missed phase).
+func TestStabilityRandomStarts(t *testing.T) {
+	nStates := 120
+	if testing.Short() {
+		nStates = 30
+	}
+	ctx := context.Background()
+	rng := rand.New(rand.NewPCG(3, 5))
+	for _, fl := range sweepFluids(t) {
+		ws, r := NewWorkspace(fl.mx), NewResult(fl.mx)
+		n := len(fl.z)
+		f := fl.mx.NewFugacity()
+		W, w, d := make([]float64, n), make([]float64, n), make([]float64, n)
+		// minTM runs every start against d at the workspace's state.
+		minTM := func() float64 {
+			best := math.Inf(1)
+			for s := range n + 20 {
+				if s < n && fl.z[s] == 0 {
+					continue
+				}
+				for i := range n {
+					switch {
+					case fl.z[i] == 0:
+						W[i] = 0
+					case s < n && i == s:
+						W[i] = 0.999
+					case s < n:
+						W[i] = 1e-3 * fl.z[i]
+					default:
+						W[i] = -math.Log(1 - rng.Float64())
+					}
+				}
+				tm := math.Inf(1)
+				for range 300 {
+					sw := 0.0
+					for _, v := range W {
+						sw += v
+					}
+					for i := range n {
+						w[i] = W[i] / sw
+					}
+					if err := ws.eval(w, 0, f); err != nil {
+						t.Fatal(err)
+					}
+					tm = 1
+					for i := range n {
+						if W[i] > 0 {
+							tm += W[i] * (math.Log(W[i]) + f.LnPhi[i] - d[i] - 1)
+							W[i] = math.Exp(d[i] - f.LnPhi[i])
+						}
+					}
+					if tm < -1e-6 {
+						break
+					}
+				}
+				best = math.Min(best, tm)
+			}
+			return best
+		}
+		split := 0
+		for range nStates {
+			T := 150 + 450*rng.Float64()
+			P := 1e5 * math.Pow(300, rng.Float64())
+			if err := ws.PT(ctx, T, P, fl.z, Options{}, nil, r); err != nil {
+				t.Fatalf("%s T=%g P=%g: %v", fl.name, T, P, err)
+			}
+			if len(r.Phases) >= 2 {
+				split++
+				if err := ws.eval(fl.z, 0, f); err != nil {
+					t.Fatal(err)
+				}
+				for i := range n {
+					if fl.z[i] > 0 {
+						d[i] = math.Log(fl.z[i]) + f.LnPhi[i]
+					}
+				}
+				if tm := minTM(); !(tm < 0) {
+					t.Errorf("%s T=%.3f P=%.5g: the feed splits into %d phases, but no start found tm < 0 (min %g)", fl.name, T, P, len(r.Phases), tm)
+				}
+			}
+			p := r.Phases[0]
+			for i := range n {
+				if p.X[i] > 0 {
+					d[i] = math.Log(p.X[i]) + p.LnPhi[i]
+				}
+			}
+			if tm := minTM(); tm < -1e-6 {
+				t.Errorf("%s T=%.3f P=%.5g: %d phases, but a start reached tm = %g against them", fl.name, T, P, len(r.Phases), tm)
+			}
+		}
+		t.Logf("%-15s %d states, %d split", fl.name, nStates, split)
 	}
 }
