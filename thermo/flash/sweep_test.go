@@ -55,29 +55,21 @@ func TestSweep(t *testing.T) {
 	ctx := context.Background()
 	for _, f := range sweepFluids(t) {
 		ws := NewWorkspace(f.mx)
-		cold := make([]*Result, nT*nP)
 		var counts [MaxPhases + 1]int
 		var convErr, evals, mism, fallback int
-		for a := range nT {
-			T := 150 + 450*float64(a)/float64(nT-1)
-			for b := range nP {
-				P := 1e5 * math.Pow(300, float64(b)/float64(nP-1))
-				r := NewResult(f.mx)
-				err := ws.PT(ctx, T, P, f.z, Options{}, nil, r)
-				evals += r.Report.LnPhiEvaluations
-				if err != nil {
-					var ce *ConvergenceError
-					if !errors.As(err, &ce) || !errors.Is(err, ErrNotConverged) || math.IsNaN(ce.Residual) {
-						t.Fatalf("%s T=%g P=%g: untyped error %v", f.name, T, P, err)
-					}
-					convErr++
-					continue
+		cold := sweepGrid(ws, f, nT, nP, func(T, P float64, r *Result, err error) {
+			evals += r.Report.LnPhiEvaluations
+			if err != nil {
+				var ce *ConvergenceError
+				if !errors.As(err, &ce) || !errors.Is(err, ErrNotConverged) || math.IsNaN(ce.Residual) {
+					t.Fatalf("%s T=%g P=%g: untyped error %v", f.name, T, P, err)
 				}
-				checkResult(t, ws, r, f.z)
-				counts[len(r.Phases)]++
-				cold[a*nP+b] = r
+				convErr++
+				return
 			}
-		}
+			checkResult(t, ws, r, f.z)
+			counts[len(r.Phases)]++
+		})
 		warm := NewResult(f.mx)
 		for a := range nT {
 			for b := range nP {
@@ -111,6 +103,29 @@ func TestSweep(t *testing.T) {
 	}
 }
 
+// sweepGrid flashes f cold with ws on an nT × nP grid over 150–600 K and
+// 0.1–30 MPa (pressure log-spaced), calls visit (when not nil) with each
+// state, its result and error, and returns the results by a·nP + b (nil
+// where the flash failed).
+func sweepGrid(ws *Workspace, f sweepFluid, nT, nP int, visit func(T, P float64, r *Result, err error)) []*Result {
+	cold := make([]*Result, nT*nP)
+	for a := range nT {
+		T := 150 + 450*float64(a)/float64(nT-1)
+		for b := range nP {
+			P := 1e5 * math.Pow(300, float64(b)/float64(nP-1))
+			r := NewResult(f.mx)
+			err := ws.PT(context.Background(), T, P, f.z, Options{}, nil, r)
+			if visit != nil {
+				visit(T, P, r, err)
+			}
+			if err == nil {
+				cold[a*nP+b] = r
+			}
+		}
+	}
+	return cold
+}
+
 func sameSplit(a, b *Result) bool {
 	if len(a.Phases) != len(b.Phases) {
 		return false
@@ -140,17 +155,7 @@ func TestSweepFarEstimates(t *testing.T) {
 	ctx := context.Background()
 	for _, f := range sweepFluids(t) {
 		ws := NewWorkspace(f.mx)
-		cold := make([]*Result, nT*nP)
-		for a := range nT {
-			T := 150 + 450*float64(a)/float64(nT-1)
-			for b := range nP {
-				P := 1e5 * math.Pow(300, float64(b)/float64(nP-1))
-				r := NewResult(f.mx)
-				if err := ws.PT(ctx, T, P, f.z, Options{}, nil, r); err == nil {
-					cold[a*nP+b] = r
-				}
-			}
-		}
+		cold := sweepGrid(ws, f, nT, nP, nil)
 		warm := NewResult(f.mx)
 		starts, fallback := 0, 0
 		for a := range nT {

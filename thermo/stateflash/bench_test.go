@@ -35,17 +35,10 @@ func benchmarkSpec(b *testing.B, spec Spec, T, P float64, warm bool) {
 		b.Fatal(err)
 	}
 	run := func(e *Estimate, res *Result) error {
-		switch spec {
-		case SpecPH:
-			return ws.PH(ctx, P, o.H, z, Options{}, e, res)
-		case SpecPS:
-			return ws.PS(ctx, P, o.S, z, Options{}, e, res)
-		case SpecTV:
-			return ws.TV(ctx, T, o.MolarVolume, z, Options{}, e, res)
-		case SpecUV:
-			return ws.UV(ctx, o.U, o.MolarVolume, z, Options{}, e, res)
+		if spec == SpecUnspecified {
+			return nil
 		}
-		return nil
+		return solveSpec(ctx, ws, spec, T, P, o, z, e, res)
 	}
 	var est *Estimate
 	var fest *flash.Estimate

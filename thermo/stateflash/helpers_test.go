@@ -1,10 +1,13 @@
 package stateflash
 
 import (
+	"context"
+	"math"
 	"testing"
 
 	"github.com/fugad/fugad/thermo/component"
 	"github.com/fugad/fugad/thermo/eos"
+	"github.com/fugad/fugad/thermo/flash"
 )
 
 // fluid builds a mixture of library components and extra components.
@@ -58,4 +61,30 @@ func sweepFluids(t testing.TB) []testFluid {
 		{"wet gas", fluid(t, eos.SRK, nil, "nitrogen", "carbon-dioxide", "methane", "ethane", "propane", "n-butane", "n-pentane", "water"),
 			[]float64{0.01, 0.02, 0.80, 0.06, 0.03, 0.02, 0.01, 0.05}},
 	}
+}
+
+// pressureTol is the relative tolerance to which a molar volume fixes P
+// at the T–P result fr: 1e-6, or for a dense phase what the volume
+// tolerance (1e-10) allows, 10·tol/(κ_T·P) with the smallest phase
+// compressibility κ_T.
+func pressureTol(fr *flash.Result, P float64) float64 {
+	kappa := math.Inf(1)
+	for _, p := range fr.Phases {
+		kappa = math.Min(kappa, p.Props.Compressivity)
+	}
+	return math.Max(1e-6, 10*1e-10/(kappa*P))
+}
+
+// solveSpec runs the state-function flash s whose specification is taken
+// from the T–P state (T, P) with overall properties o, from estimate e.
+func solveSpec(ctx context.Context, ws *Workspace, s Spec, T, P float64, o flash.Overall, z []float64, e *Estimate, r *Result) error {
+	switch s {
+	case SpecPH:
+		return ws.PH(ctx, P, o.H, z, Options{}, e, r)
+	case SpecPS:
+		return ws.PS(ctx, P, o.S, z, Options{}, e, r)
+	case SpecTV:
+		return ws.TV(ctx, T, o.MolarVolume, z, Options{}, e, r)
+	}
+	return ws.UV(ctx, o.U, o.MolarVolume, z, Options{}, e, r)
 }

@@ -171,17 +171,7 @@ func TestHardOuterPaths(t *testing.T) {
 		if err := fws.PT(ctx, c.T, c.P, f.z, flash.Options{}, nil, fr); err != nil {
 			t.Fatal(err)
 		}
-		o := fr.Overall
-		var err error
-		switch c.spec {
-		case SpecPH:
-			err = ws.PH(ctx, c.P, o.H, f.z, Options{}, est, r)
-		case SpecPS:
-			err = ws.PS(ctx, c.P, o.S, f.z, Options{}, est, r)
-		case SpecTV:
-			err = ws.TV(ctx, c.T, o.MolarVolume, f.z, Options{}, est, r)
-		}
-		if err != nil {
+		if err := solveSpec(ctx, ws, c.spec, c.T, c.P, fr.Overall, f.z, est, r); err != nil {
 			t.Errorf("%s %v at T=%g P=%g: %v", f.name, c.spec, c.T, c.P, err)
 			continue
 		}

@@ -34,25 +34,9 @@ func TestRoundTrip(t *testing.T) {
 					tpFail[0]++
 					continue
 				}
-				o := fr.Overall
-				// Smallest phase compressibility bounds how well V fixes P.
-				kappa := math.Inf(1)
-				for _, p := range fr.Phases {
-					kappa = math.Min(kappa, p.Props.Compressivity)
-				}
-				ptol := math.Max(1e-6, 10*1e-10/(kappa*P))
+				ptol := pressureTol(fr, P)
 				for s := SpecPH; s <= SpecUV; s++ {
-					var err error
-					switch s {
-					case SpecPH:
-						err = ws.PH(ctx, P, o.H, f.z, Options{}, nil, r)
-					case SpecPS:
-						err = ws.PS(ctx, P, o.S, f.z, Options{}, nil, r)
-					case SpecTV:
-						err = ws.TV(ctx, T, o.MolarVolume, f.z, Options{}, nil, r)
-					case SpecUV:
-						err = ws.UV(ctx, o.U, o.MolarVolume, f.z, Options{}, nil, r)
-					}
+					err := solveSpec(ctx, ws, s, T, P, fr.Overall, f.z, nil, r)
 					calls[s]++
 					if err != nil {
 						var ce *ConvergenceError
@@ -129,26 +113,10 @@ func TestRandomStates(t *testing.T) {
 			if err := fws.PT(ctx, T, P, f.z, flash.Options{}, nil, fr); err != nil {
 				t.Fatalf("%s T–P at T=%g P=%g: %v", f.name, T, P, err)
 			}
-			o := fr.Overall
-			kappa := math.Inf(1)
-			for _, p := range fr.Phases {
-				kappa = math.Min(kappa, p.Props.Compressivity)
-			}
-			ptol := math.Max(1e-6, 10*1e-10/(kappa*P))
+			ptol := pressureTol(fr, P)
 			for s := SpecPH; s <= SpecUV; s++ {
-				run := func(e *Estimate, r *Result) error {
-					switch s {
-					case SpecPH:
-						return ws.PH(ctx, P, o.H, f.z, Options{}, e, r)
-					case SpecPS:
-						return ws.PS(ctx, P, o.S, f.z, Options{}, e, r)
-					case SpecTV:
-						return ws.TV(ctx, T, o.MolarVolume, f.z, Options{}, e, r)
-					}
-					return ws.UV(ctx, o.U, o.MolarVolume, f.z, Options{}, e, r)
-				}
 				calls++
-				if err := run(nil, cold); err != nil {
+				if err := solveSpec(ctx, ws, s, T, P, fr.Overall, f.z, nil, cold); err != nil {
 					t.Errorf("%s %v cold at T=%.4f P=%.6g (%d phases): %v", f.name, s, T, P, len(fr.Phases), err)
 					continue
 				}
@@ -159,7 +127,7 @@ func TestRandomStates(t *testing.T) {
 					continue
 				}
 				e := ests[rng.IntN(len(ests))]
-				if err := run(&e, warm); err != nil {
+				if err := solveSpec(ctx, ws, s, T, P, fr.Overall, f.z, &e, warm); err != nil {
 					t.Errorf("%s %v warm at T=%.4f P=%.6g (%d phases) from T=%.4f P=%.6g: %v", f.name, s, T, P, len(fr.Phases), e.T, e.P, err)
 					continue
 				}
