@@ -84,7 +84,7 @@ func DefaultMaxConcurrentSolves() int { return max(1, runtime.GOMAXPROCS(0)-1) }
 
 // ModelVersion identifies the models and solvers compiled into this
 // server; it changes whenever a change can alter a result's bytes.
-const ModelVersion = "fugad-models-5"
+const ModelVersion = "fugad-models-6"
 
 // withDefaults returns c with every zero field replaced by its default, or
 // an error naming a negative field.

@@ -46,6 +46,15 @@
 //
 // # Phase split
 //
+// The cold path starts the split from both Wilson trials' compositions
+// when both proved the feed unstable, then from the trial of lowest tpd,
+// then from Wilson's K-values. The feed test stops at its first clearly
+// unstable trial (tpd < −0.05); when none of those starts converges, the
+// feed is tested again with every trial and the split started from each,
+// lowest tpd first. That rescues feeds with water whose liquid-like
+// Wilson trial lands across the aqueous parameter set's boundary (see
+// eos.AqueousKijMode), where a pure-water-like trial leads to the split.
+//
 // Two phases: successive substitution ln K_i ← ln φ_i^L − ln φ_i^V with
 // the Rachford–Rice equation solved in the window of Leibovici & Neoschil
 // (1992) by safeguarded Newton (negative flash allowed while iterating,

@@ -402,6 +402,68 @@ func (ws *Workspace) cold() error {
 		}
 		lastErr = err
 	}
+	// Every start failed. The test stops at its first clearly unstable
+	// trial, and the result tests of the failed splits overwrote the
+	// trials' compositions: test the feed again with every trial and start
+	// from each of them, lowest tpd first. A trial of a component that forms
+	// a further liquid (water, say) can lead to the split where a Wilson
+	// trial, whose composition lies across the aqueous parameter set's
+	// boundary, does not.
+	return ws.retryTrials(best, lastErr)
+}
+
+// retryTrials runs the feed's stability test with every trial and starts
+// the split from each trial other than tried, lowest tpd first. It returns
+// nil when one of them converges, an error other than a solver failure at
+// once, and otherwise the last solver failure (lastErr, that of the first
+// starts, when no start got as far).
+func (ws *Workspace) retryTrials(tried int, lastErr error) error {
+	ws.m = 1
+	ws.ph[0].beta = 1
+	if err := ws.feedReference(); err != nil {
+		return err
+	}
+	ws.fullTest = true
+	_, _, err := ws.stabilityTest(ws.lnz, 0)
+	ws.fullTest = false
+	if err != nil {
+		return err
+	}
+	// The candidates and their compositions, which the splits' own tests
+	// overwrite in ws.trialW.
+	nc := 0
+	for t := range ws.nTrial {
+		if t == tried || math.IsInf(ws.trialT[t], 0) {
+			continue
+		}
+		copy(ws.startW[nc], ws.trialW[t])
+		ws.startT[nc] = ws.trialT[t]
+		nc++
+	}
+	// Insertion sort by tpd (at most maxTrials entries).
+	for a := 1; a < nc; a++ {
+		for b := a; b > 0 && ws.startT[b] < ws.startT[b-1]; b-- {
+			ws.startT[b], ws.startT[b-1] = ws.startT[b-1], ws.startT[b]
+			ws.startW[b], ws.startW[b-1] = ws.startW[b-1], ws.startW[b]
+		}
+	}
+	for c := range nc {
+		ws.m = 2
+		for _, i := range ws.act {
+			ws.lnK[i] = safeLog(ws.startW[c][i]) - ws.lnz[i]
+		}
+		if ws.setTwoFromK(0.5) != rrRoot {
+			continue
+		}
+		err := ws.phaseLoop()
+		if err == nil {
+			return nil
+		}
+		if _, conv := err.(*ConvergenceError); !conv {
+			return err
+		}
+		lastErr = err
+	}
 	if lastErr == nil {
 		lastErr = &ConvergenceError{Stage: "two-phase split", Iterations: ws.rep.SSIterations + ws.rep.NewtonIterations, Residual: math.Inf(1), Phases: 1}
 	}

@@ -571,3 +571,32 @@ func TestCarbonDioxideInWater(t *testing.T) {
 		t.Errorf("one k_ij set: CO2 in water %g, expected well below the measured 0.02", x)
 	}
 }
+
+// TestColdRetriesTrials: 3-methylpentane, water and benzene (SRK, a feed
+// of our own) at 95.5 kPa split into a hydrocarbon liquid and an aqueous
+// liquid from 310 to 325 K. At 318.354 K the liquid-like Wilson trial
+// reaches 67 % water, across the aqueous parameter set's boundary, with
+// tpd −1.03; the split from it and from Wilson's K did not converge and
+// the flash failed. The cold path now tests the feed with every trial and
+// starts from each: the answer lies between its neighbours'.
+func TestColdRetriesTrials(t *testing.T) {
+	mx := fluid(t, eos.SRK, "3-methylpentane", "water", "benzene")
+	z := []float64{1.431374933070837, 0.8279011373660945, 0.22523817212079847}
+	ws := NewWorkspace(mx)
+	P := 95501.677122547873
+	var beta [3]float64
+	for k, T := range []float64{310, 318.35398215471804, 325} {
+		r := NewResult(mx)
+		if err := ws.PT(context.Background(), T, P, z, Options{}, nil, r); err != nil {
+			t.Fatalf("%g K: %v", T, err)
+		}
+		if len(r.Phases) != 2 || r.Phases[0].Label != LabelLiquid || r.Phases[1].Label != LabelAqueous {
+			t.Fatalf("%g K: %d phases %v, want a liquid and an aqueous phase", T, len(r.Phases), r.Phases)
+		}
+		checkResult(t, ws, r, z)
+		beta[k] = r.Phases[0].Beta
+	}
+	if !(beta[0] < beta[1] && beta[1] < beta[2]) {
+		t.Errorf("hydrocarbon-liquid amounts %v not increasing with T", beta)
+	}
+}

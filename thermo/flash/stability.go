@@ -198,7 +198,7 @@ func (ws *Workspace) stabilityTest(lnRef []float64, nExist int) (float64, int, e
 		if ok && tpd < minTPD {
 			minTPD, best = tpd, t
 		}
-		if ok && tpd < -0.05 {
+		if ok && tpd < -0.05 && !ws.fullTest {
 			// Clearly unstable; the remaining trials would not change the
 			// decision and the split starts from this one.
 			ws.nTrial = t + 1

@@ -73,19 +73,25 @@ type Workspace struct {
 	order [MaxPhases + 1]int
 
 	// stability
-	trials    []trialSpec
-	d         []float64
-	W         []float64
-	lnW       []float64
-	lnWn      []float64
-	w         []float64
-	Wp        []float64
-	dir       []float64
-	tf        *eos.Fugacity
-	trialW    [maxTrials][]float64
-	trialT    [maxTrials]float64
-	trialOK   [maxTrials]bool
-	nTrial    int
+	trials  []trialSpec
+	d       []float64
+	W       []float64
+	lnW     []float64
+	lnWn    []float64
+	w       []float64
+	Wp      []float64
+	dir     []float64
+	tf      *eos.Fugacity
+	trialW  [maxTrials][]float64
+	trialT  [maxTrials]float64
+	trialOK [maxTrials]bool
+	nTrial  int
+	// fullTest runs every trial (no stop at the first clearly unstable
+	// one); startW and startT hold the trials the cold path starts from
+	// after its first starts failed (retryTrials).
+	fullTest  bool
+	startW    [maxTrials][]float64
+	startT    [maxTrials]float64
 	nearTol   float64 // distance below which a trial is converging to a found phase
 	nearLoose float64 // the same for a trial whose tm is nearly zero (existNear)
 
@@ -158,6 +164,7 @@ func NewWorkspace(mx *eos.Mixture) *Workspace {
 	}
 	for t := range ws.trialW {
 		ws.trialW[t] = v()
+		ws.startW[t] = v()
 	}
 	for k := range ws.warmX {
 		ws.warmX[k] = v()
