@@ -390,17 +390,11 @@ func (ws *Workspace) cold() error {
 				ws.lnK[i] = safeLog(ws.trialW[t][i]) - ws.lnz[i]
 			}
 		}
-		if ws.setTwoFromK(0.5) != rrRoot {
-			continue
-		}
-		err := ws.phaseLoop()
-		if err == nil {
-			return nil
-		}
-		if _, conv := err.(*ConvergenceError); !conv {
+		if stop, err := ws.splitFromK(); stop {
 			return err
+		} else if err != nil {
+			lastErr = err
 		}
-		lastErr = err
 	}
 	// Every start failed. The test stops at its first clearly unstable
 	// trial, and the result tests of the failed splits overwrote the
@@ -410,6 +404,22 @@ func (ws *Workspace) cold() error {
 	// trial, whose composition lies across the aqueous parameter set's
 	// boundary, does not.
 	return ws.retryTrials(best, lastErr)
+}
+
+// splitFromK solves the two-phase split from ws.lnK (with ws.m = 2) and
+// the phases it adds. stop reports that the cold path ends here, with err
+// nil (solved) or an error other than a solver failure; otherwise err is
+// this start's *ConvergenceError, or nil when Rachford–Rice has no root
+// for these K-values.
+func (ws *Workspace) splitFromK() (stop bool, err error) {
+	if ws.setTwoFromK(0.5) != rrRoot {
+		return false, nil
+	}
+	err = ws.phaseLoop()
+	if _, conv := err.(*ConvergenceError); conv {
+		return false, err
+	}
+	return true, err
 }
 
 // retryTrials runs the feed's stability test with every trial and starts
@@ -452,17 +462,11 @@ func (ws *Workspace) retryTrials(tried int, lastErr error) error {
 		for _, i := range ws.act {
 			ws.lnK[i] = safeLog(ws.startW[c][i]) - ws.lnz[i]
 		}
-		if ws.setTwoFromK(0.5) != rrRoot {
-			continue
-		}
-		err := ws.phaseLoop()
-		if err == nil {
-			return nil
-		}
-		if _, conv := err.(*ConvergenceError); !conv {
+		if stop, err := ws.splitFromK(); stop {
 			return err
+		} else if err != nil {
+			lastErr = err
 		}
-		lastErr = err
 	}
 	if lastErr == nil {
 		lastErr = &ConvergenceError{Stage: "two-phase split", Iterations: ws.rep.SSIterations + ws.rep.NewtonIterations, Residual: math.Inf(1), Phases: 1}

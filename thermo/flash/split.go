@@ -362,13 +362,7 @@ func (ws *Workspace) betaInside() bool {
 func (ws *Workspace) duplicate() int {
 	for k := 0; k < ws.m; k++ {
 		for l := k + 1; l < ws.m; l++ {
-			a, b := ws.ph[k].lnx, ws.ph[l].lnx
-			d := 0.0
-			for _, i := range ws.act {
-				e := a[i] - b[i]
-				d += e * e
-			}
-			if d < sameTol {
+			if ws.phaseDist(k, l) < sameTol {
 				if ws.ph[k].beta < ws.ph[l].beta {
 					return k
 				}
@@ -377,6 +371,18 @@ func (ws *Workspace) duplicate() int {
 		}
 	}
 	return -1
+}
+
+// phaseDist is Σ_i (ln x_ik − ln x_il)² over the present components, the
+// squared distance of phases k and l.
+func (ws *Workspace) phaseDist(k, l int) float64 {
+	a, b := ws.ph[k].lnx, ws.ph[l].lnx
+	d := 0.0
+	for _, i := range ws.act {
+		e := a[i] - b[i]
+		d += e * e
+	}
+	return d
 }
 
 // vanished returns a phase whose amount fell below betaVanish, or −1.

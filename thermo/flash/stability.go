@@ -180,11 +180,7 @@ func (ws *Workspace) stabilityTest(lnRef []float64, nExist int) (float64, int, e
 	ws.nearTol, ws.nearLoose = existTol, existNear
 	for k := 0; k < nExist; k++ {
 		for l := k + 1; l < nExist; l++ {
-			d := 0.0
-			for _, i := range ws.act {
-				e := ws.ph[k].lnx[i] - ws.ph[l].lnx[i]
-				d += e * e
-			}
+			d := ws.phaseDist(k, l)
 			ws.nearTol = min(ws.nearTol, existFrac*d)
 			ws.nearLoose = min(ws.nearLoose, existFrac*d)
 		}

@@ -435,7 +435,6 @@ func (ws *Workspace) solve1D(y, lo, hi float64, flashed bool) (float64, error) {
 				failHi = math.Min(failHi, y)
 			}
 			y = 0.5 * (y + yGood)
-			ws.haveEst = false
 			continue
 		}
 		yGood, haveGood = y, true
